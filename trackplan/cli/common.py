@@ -1,0 +1,127 @@
+"""Shared pieces of the command line: the app, error handling, JSON, units.
+
+* :func:`command` registers a subcommand and turns :class:`InputError` into a
+  one-line message on stderr and exit code 2 (never a traceback).
+* :func:`emit_json` prints one JSON object on stdout (SI, units in key names).
+* :func:`print_caution` prints the caution under a result a person may act on.
+"""
+
+from __future__ import annotations
+
+import functools
+import json
+import math
+import sys
+from enum import Enum
+from pathlib import Path
+
+import typer
+from rich.console import Console
+
+from trackplan import CAUTION, units
+from trackplan.errors import InputError
+
+app = typer.Typer(
+    name="trackplan",
+    help=(
+        "Thermal stress planning for continuous welded rail: rail forces at the temperature "
+        "extremes, the neutral temperature to install, risk days in a temperature history, "
+        "and the destressing adjustment for the crew.\n\n"
+        "Quantities carry units ('27 degC', '480 m', '8 kN/m'); a bare number on the command "
+        "line is read in the --units system and echoed back. --json prints SI figures with the "
+        "unit in every key."
+    ),
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+    context_settings={"help_option_names": ["-h", "--help"]},
+)
+
+# Piped output (files, scripts) gets a fixed width wide enough for the tables.
+console = Console(width=None if sys.stdout.isatty() else 120)
+err_console = Console(stderr=True, width=None if sys.stderr.isatty() else 120)
+
+
+class UnitSystem(str, Enum):
+    """Unit system for display and for bare numbers typed on the command line."""
+
+    si = "si"
+    us = "us"
+
+
+UNITS_OPTION = typer.Option(
+    UnitSystem.si, "--units", help="Units for printing and for bare numbers: si (degC, m, kN, MPa) or us (degF, ft, kip, ksi)."
+)
+JSON_OPTION = typer.Option(False, "--json", help="Print one JSON object (SI units, unit in every key) and nothing else.")
+
+
+def fail(exc: InputError) -> None:
+    """Print an input error and exit with code 2."""
+    err_console.print(f"[bold red]error:[/] {exc}", highlight=False, soft_wrap=True)
+    raise typer.Exit(2)
+
+
+def command(name: str | None = None, **kwargs):
+    """Register a subcommand on :data:`app` with input-error handling."""
+
+    def deco(fn):
+        @functools.wraps(fn)
+        def wrapper(*args, **kw):
+            try:
+                return fn(*args, **kw)
+            except InputError as exc:
+                fail(exc)
+
+        app.command(name, **kwargs)(wrapper)
+        return fn
+
+    return deco
+
+
+def jsonable(obj):
+    """Turn numpy scalars/arrays, NaN and paths into JSON-ready values (NaN -> null)."""
+    if isinstance(obj, dict):
+        return {str(k): jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [jsonable(v) for v in obj]
+    if hasattr(obj, "tolist") and not isinstance(obj, (str, bytes)):
+        return jsonable(obj.tolist())
+    if isinstance(obj, float):
+        return None if not math.isfinite(obj) else obj
+    if isinstance(obj, Path):
+        return str(obj)
+    if isinstance(obj, Enum):
+        return obj.value
+    if hasattr(obj, "isoformat"):
+        return obj.isoformat()
+    return obj
+
+
+def emit_json(obj: dict) -> None:
+    """Write one JSON object to stdout."""
+    sys.stdout.write(json.dumps(jsonable(obj), indent=2, allow_nan=False) + "\n")
+
+
+def print_caution() -> None:
+    """The caution line under any result a person may act on."""
+    console.print(f"[yellow]Caution:[/] {CAUTION}", highlight=False)
+
+
+def parse_option(text: str | None, kind: str, option: str, system: UnitSystem | str, required: bool = True):
+    """Parse a command-line quantity; a bare number is read in the unit system.
+
+    Returns ``(si_value, echo)`` where ``echo`` is the text shown back to the
+    user (``'27 degC'``), or ``(None, None)`` for an absent optional value.
+    """
+    if text is None:
+        if required:
+            raise InputError(f"a value is required, e.g. {option} '{units._example(kind)}'", option)
+        return None, None
+    sysname = system.value if isinstance(system, Enum) else system
+    parsed = units.parse_with_unit(text, kind, option, default_unit=units.default_unit(kind, sysname))
+    return parsed.value, parsed.echo
+
+
+def progress_enabled() -> bool:
+    """Progress bars only on an interactive terminal, never when piped."""
+    return sys.stderr.isatty()
