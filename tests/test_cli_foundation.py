@@ -1,0 +1,72 @@
+"""CLI: profiles and force commands, bad input."""
+
+from __future__ import annotations
+
+import pytest
+
+from trackplan import rails, thermal
+
+
+def test_profiles_json(run_cli):
+    res, data = run_cli("profiles", "--json", json_out=True)
+    names = [p["name"] for p in data["profiles"]]
+    assert "60E1" in names and "136RE" in names
+    row = data["profiles"][names.index("60E1")]
+    assert set(row) >= {"name", "area_cm2", "mass_kg_per_m", "vertical_inertia_cm4", "lateral_inertia_cm4",
+                        "height_mm", "foot_width_mm", "head_width_mm", "source"}
+    assert row["area_cm2"] == pytest.approx(76.70)
+
+
+def test_profiles_table(run_cli):
+    res = run_cli("profiles", "--units", "us")
+    assert res.exit_code == 0
+    assert "136RE" in res.stdout and "in²" in res.stdout
+
+
+def test_force_json_values(run_cli):
+    res, d = run_cli("force", "--rail", "60E1", "--neutral", "27 degC", "--at", "60 degC", "--at", "-20 degC",
+                     "--resistance", "8 kN/m", "--json", json_out=True)
+    assert d["rail"] == "60E1" and d["E_GPa"] == pytest.approx(210.0)
+    hot, cold = d["results"]
+    # independent: 210e9 * 76.70e-4 * 1.15e-5 * 33 K
+    assert hot["force_per_rail_kN"] == pytest.approx(210e9 * 76.70e-4 * 1.15e-5 * 33 / 1e3, rel=1e-9)
+    assert hot["force_per_track_kN"] == pytest.approx(2 * hot["force_per_rail_kN"])
+    assert hot["state"] == "compression" and cold["state"] == "tension"
+    assert cold["rise_K"] == pytest.approx(-47.0)
+    assert cold["stress_MPa"] < 0
+    assert "pull_apart_gap_mm" in cold and "pull_apart_gap_mm" not in hot
+    P = cold["force_per_rail_kN"] * 1e3
+    assert cold["pull_apart_gap_mm"] == pytest.approx(P**2 / (210e9 * 76.70e-4 * 8e3) * 1e3)
+    assert cold["breathing_length_m"] == pytest.approx(abs(P) / 8e3)
+
+
+def test_force_us_bare_numbers(run_cli):
+    res, d = run_cli("force", "--rail", "136RE", "--neutral", "95", "--at", "135", "--units", "us", "--json",
+                     json_out=True)
+    assert d["neutral_temperature_C"] == pytest.approx(35.0)
+    # 40 degF rise * 2.6 kip/degF (common practice) ~ 104 kip ~ 463 kN
+    assert d["results"][0]["force_per_rail_kN"] / 4.4482216152605 == pytest.approx(104, rel=0.02)
+
+
+@pytest.mark.parametrize(
+    "args,needle",
+    [
+        (["--rail", "60E3", "--neutral", "27 degC", "--at", "40 degC"], "Did you mean"),
+        (["--rail", "60E1", "--neutral", "27 m", "--at", "40 degC"], "--neutral"),
+        (["--rail", "60E1", "--neutral", "warm", "--at", "40 degC"], "cannot read"),
+        (["--rail", "60E1", "--neutral", "27 degC", "--at", "40 degC", "--resistance", "0 kN/m"], "--resistance"),
+        (["--rail", "60E1", "--neutral", "27 degC", "--at", "40 degC", "--resistance", "-3 kN/m"], "positive"),
+        (["--rail", "60E1", "--neutral", "27 degC", "--at", "40 degC", "--youngs-modulus", "2 GPa"], "GPa"),
+    ],
+)
+def test_force_bad_input_exit_2(run_cli, args, needle):
+    res = run_cli("force", *args)
+    assert res.exit_code == 2
+    assert needle in res.output
+    assert "Traceback" not in res.output
+
+
+def test_force_table_has_caution(run_cli):
+    res = run_cli("force", "--rail", "60E1", "--neutral", "27 degC", "--at", "60 degC")
+    assert res.exit_code == 0
+    assert "Planning aid only" in res.stdout

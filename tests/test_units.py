@@ -1,0 +1,96 @@
+"""Units: the fast unit table against pint (the reference library), parsing rules."""
+
+from __future__ import annotations
+
+import math
+
+import pint
+import pytest
+from hypothesis import given, strategies as st
+
+from trackplan import units
+from trackplan.errors import InputError
+
+UREG = pint.UnitRegistry()
+
+# pint spelling of each fast-table unit, where it differs from ours
+_PINT_NAME = {"°C": "degC", "°F": "degF", "°": "degree", "mi": "mile", "tonf": "ton_force", "1/delta_degC": "1/delta_degC"}
+
+
+@pytest.mark.parametrize(
+    "kind,unit",
+    [(k, u) for k, table in units._UNITS.items() for u in table],
+)
+def test_fast_table_matches_pint(kind, unit):
+    # Reference: pint's own definitions (pint.UnitRegistry default registry).
+    target = units._PINT_CHECK_UNIT[kind]
+    for value in (0.0, 1.0, 37.5, -12.25):
+        ours = units.to_si(value, unit, kind)
+        q = UREG.Quantity(value, _PINT_NAME.get(unit, unit)).to(target).magnitude
+        if kind == "temperature":
+            q -= 273.15
+        if kind == "angle":
+            q = math.degrees(q)
+        assert ours == pytest.approx(q, rel=1e-12, abs=1e-9), (kind, unit, value)
+
+
+def test_pint_fallback_for_compound_units():
+    # Not in the fast table: goes to pint.
+    assert units.parse("2 kip/ft", "force_per_length") == pytest.approx(
+        UREG.Quantity(2, "kip/ft").to("N/m").magnitude
+    )
+    assert units.parse("3 kgf", "force") == pytest.approx(3 * 9.80665)
+
+
+def test_known_conversions_by_definition():
+    # Exact definitions: 1 in = 25.4 mm, 1 lbf = 4.4482216152605 N, degF scale.
+    assert units.parse("95 degF", "temperature") == pytest.approx(35.0)
+    assert units.parse("32 degF", "temperature") == pytest.approx(0.0)
+    assert units.parse("18 delta_degF", "temperature_difference") == pytest.approx(10.0)
+    assert units.parse("1600 ft", "length") == pytest.approx(487.68)
+    assert units.parse("1 ksi", "stress") == pytest.approx(6.894757e6, rel=1e-6)
+
+
+def test_absolute_and_difference_are_kept_apart():
+    with pytest.raises(InputError, match="difference"):
+        units.parse("10 degC", "temperature_difference", "--rise")
+    with pytest.raises(InputError, match="absolute"):
+        units.parse("10 delta_degC", "temperature", "--neutral")
+
+
+def test_bare_number_needs_default_unit():
+    with pytest.raises(InputError, match="no unit"):
+        units.parse("27", "temperature", "neutral")
+    assert units.parse("27", "temperature", "x", default_unit="degF") == pytest.approx((27 - 32) * 5 / 9)
+
+
+@pytest.mark.parametrize("text", ["abc", "27 furlongs", "", "12 m m m"])
+def test_unreadable_text_is_input_error(text):
+    with pytest.raises(InputError):
+        units.parse(text, "temperature", "--neutral")
+
+
+def test_wrong_dimension_names_kind():
+    with pytest.raises(InputError, match="not a temperature"):
+        units.parse("27 m", "temperature", "--neutral")
+
+
+@given(st.floats(min_value=-80, max_value=120, allow_nan=False))
+def test_si_us_round_trip_temperature(t):
+    shown, unit = units.convert_for_display(t, "temperature", "us")
+    assert unit == "degF"
+    assert units.to_si(shown, unit, "temperature") == pytest.approx(t, abs=1e-9)
+
+
+@given(st.floats(min_value=-1e7, max_value=1e7, allow_nan=False), st.sampled_from(
+    ["length", "short_length", "force", "stress", "force_per_length", "temperature_difference"]))
+def test_si_us_round_trip_other(v, kind):
+    shown, unit = units.convert_for_display(v, kind, "us")
+    base = units._DISPLAY_BASE.get(kind, kind)
+    assert units.to_si(shown, unit, base) == pytest.approx(v, rel=1e-12, abs=1e-9)
+
+
+def test_fmt():
+    assert units.fmt(27.0, "temperature", "us") == "80.6 °F"
+    assert units.fmt(0.0585, "short_length", "si") == "58.5 mm"
+    assert units.fmt(None, "force") == "–"
