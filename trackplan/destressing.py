@@ -738,7 +738,9 @@ def plan_destressing(
 
     force = 0.0 if mode == "heating" else float(thermal.thermal_force(rise_K, E_Pa, area_m2, alpha_per_K))
     stretch_possible = rise_K >= 0.0
-    within = None if tensor_capacity_N is None or mode == "heating" else bool(force <= tensor_capacity_N)
+    # A capacity is checked against a pull only: no tensor in heating mode, and no
+    # pull at all when the rail is hotter than the target.
+    within = None if (tensor_capacity_N is None or mode == "heating" or force < 0) else bool(force <= tensor_capacity_N)
 
     lp = pulled[0]
     if mark_spacing_m is None:
@@ -841,7 +843,7 @@ def _add_warnings(p: DestressPlan, s: str) -> None:
             + ("Pull both halves towards a central cut, or " if p.pull == "end" else "")
             + "split the string into shorter pulled lengths with intermediate fixed points; check every mark.",
         )
-    if p.cut_length_m < 0 and p.mode != "repair":
+    if p.cut_length_m < 0 and p.mode != "repair" and p.stretch_possible:
         add(
             "rail_to_add",
             f"The length to cut out is negative ({mm(p.cut_length_m)}): rail must be added, "

@@ -17,6 +17,7 @@ from trackplan.cli.common import app
 COMMAND_MODULES = [
     "profiles",
     "force",
+    "destress",
 ]
 
 for _name in COMMAND_MODULES:
