@@ -1,0 +1,244 @@
+"""Section assessment: climate -> design rail temperatures, track -> allowable rise,
+then the neutral target and the pre-summer verdict.
+
+This is the orchestration layer between the section file and the physics
+modules (:mod:`trackplan.weather`, :mod:`trackplan.railtemp`,
+:mod:`trackplan.extremes`, :mod:`trackplan.stability`, :mod:`trackplan.target`,
+:mod:`trackplan.check`). It holds the caches that make a network of many
+sections sharing a few climate records affordable:
+
+* each climate record is read once;
+* daily rail extremes are computed once per record, place, track orientation
+  (azimuth modulo 180 degrees, rounded to 1 degree: a track is the same in both
+  directions, and 1 degree changes the rail's sunlit silhouette by under 2 %),
+  shade, rail profile and method; sections are processed grouped by record so
+  the record's solar geometry is prepared once;
+* design extremes once per daily series and return period;
+* the stability curve once per distinct track (the stability module caches it).
+"""
+
+from __future__ import annotations
+
+import calendar
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from trackplan import check as check_mod
+from trackplan import target as target_mod
+from trackplan.errors import InputError
+from trackplan.sections import Section
+
+
+@dataclass
+class ClimateResult:
+    """Design rail temperatures of a section, with where they come from."""
+
+    design: object  # trackplan.extremes.DesignExtremes
+    daily: object  # pandas.DataFrame of daily rail/air extremes
+    method: str
+    station: str
+    hot_month: str | None
+    warnings: list[str] = field(default_factory=list)
+
+    @property
+    def design_max_C(self) -> float:
+        return float(self.design.design_max_rail_temperature_C)
+
+    @property
+    def design_min_C(self) -> float:
+        return float(self.design.design_min_rail_temperature_C)
+
+
+@dataclass
+class SectionAssessment:
+    """Everything computed for one section."""
+
+    section: Section
+    climate: ClimateResult
+    stability: object  # trackplan.stability.StabilityResult
+    longitudinal_resistance_N_per_m: float
+    target: target_mod.TargetResult
+    check: check_mod.CheckResult
+    practice: list[target_mod.PracticeRule]
+
+    @property
+    def allowable_rise_K(self) -> float:
+        return float(self.stability.allowable_rise_K)
+
+
+def _hot_month(daily) -> str | None:
+    """The month in which the hot season starts: the earliest month that holds at
+    least 10 % of the years' hottest days (``None`` if the record has no dates)."""
+    import numpy as np
+
+    s = daily["rail_max_C"].dropna()
+    if s.empty:
+        return None
+    years = s.index.year
+    idx = s.groupby(years).idxmax()
+    months = np.array([d.month for d in idx])
+    # order months starting after the coldest part of the year (hemisphere-neutral)
+    counts = np.bincount(months, minlength=13)[1:]
+    peak = int(np.argmax(counts))
+    order = [(peak - 6 + k) % 12 for k in range(12)]
+    total = counts.sum()
+    acc = 0
+    for m in order:
+        acc += counts[m]
+        if counts[m] >= 0.1 * total:
+            return calendar.month_name[m + 1]
+    return calendar.month_name[peak + 1]  # pragma: no cover
+
+
+class Assessor:
+    """Assess sections with shared caches (one instance per run).
+
+    Parameters
+    ----------
+    return_period_years : float, optional
+        Overrides every section's return period.
+    distribution : str
+        Extreme-value distribution (``gumbel`` or ``gev``).
+    """
+
+    def __init__(self, return_period_years: float | None = None, distribution: str = "gumbel"):
+        self.return_period_years = return_period_years
+        self.distribution = distribution
+        self._records: dict = {}
+        self._daily: dict = {}
+        self._design: dict = {}
+
+    # -- climate --------------------------------------------------------
+    def record(self, path: Path, where: str):
+        from trackplan import weather
+
+        key = str(path)
+        if key not in self._records:
+            self._records[key] = weather.read_record(path, where=where)
+        return self._records[key]
+
+    def site_for(self, section: Section, meta: dict):
+        from trackplan.railtemp import RailSite
+
+        lat = section.latitude_deg if section.latitude_deg is not None else meta.get("latitude_deg")
+        lon = section.longitude_deg if section.longitude_deg is not None else meta.get("longitude_deg")
+        if lat is None or lon is None:
+            raise InputError("no latitude/longitude in the section or its climate record; add latitude and "
+                             "longitude to the section", f"{section.file.name} [sections.{section.id}]")
+        return RailSite(
+            latitude_deg=float(lat),
+            longitude_deg=float(lon),
+            elevation_m=float(meta.get("elevation_m") or 0.0),
+            track_azimuth_deg=float(round(section.track_azimuth_deg % 180.0) % 180),
+            shade_factor=section.shade_factor,
+        )
+
+    def daily(self, section: Section):
+        """Daily rail extremes for the section (cached)."""
+        from trackplan import railtemp
+
+        where = f"{section.file.name} [sections.{section.id}] climate"
+        df, meta = self.record(section.climate_path, where)
+        site = self.site_for(section, meta)
+        key = (str(section.climate_path), round(site.latitude_deg, 4), round(site.longitude_deg, 4),
+               site.track_azimuth_deg, round(site.shade_factor, 3), section.profile.name,
+               section.rail_temperature_method)
+        if key not in self._daily:
+            daily = railtemp.daily_rail_extremes(df, meta, section.profile, site, section.rail_temperature_method)
+            self._daily[key] = daily
+        return self._daily[key], meta, key
+
+    def climate(self, section: Section) -> ClimateResult:
+        """Design rail temperatures for the section (cached)."""
+        from trackplan import extremes
+
+        daily, meta, key = self.daily(section)
+        rp = self.return_period_years or section.return_period_years
+        dkey = (key, rp, self.distribution)
+        if dkey not in self._design:
+            design = extremes.design_extremes(daily, return_period_years=rp, distribution=self.distribution,
+                                              typical_year=bool(meta.get("typical_year")))
+            self._design[dkey] = (design, _hot_month(daily))
+        design, month = self._design[dkey]
+        warnings = list(meta.get("warnings", [])) + list(daily.attrs.get("warnings", [])) + list(design.warnings)
+        return ClimateResult(design, daily, daily.attrs.get("method", section.rail_temperature_method),
+                             str(meta.get("station", section.climate_path.stem)), month, warnings)
+
+    # -- track ----------------------------------------------------------
+    def track_input(self, section: Section, ballast: str | None = None):
+        from trackplan import stability
+
+        ov = dict(section.stability_overrides)
+        kw = {}
+        for name, value in ov.items():
+            kw[{
+                "peak_resistance": "peak_resistance_N_per_m",
+                "limit_resistance": "limit_resistance_N_per_m",
+                "peak_displacement": "peak_displacement_m",
+                "longitudinal_resistance": "longitudinal_resistance_N_per_m",
+                "lateral_stiffness": "lateral_stiffness_N_per_m2",
+            }[name]] = value
+        return stability.track_parameters(
+            section.profile, section.steel, section.sleeper, ballast or section.ballast, section.shoulder,
+            radius_m=section.radius_m, misalignment_m=section.misalignment_m,
+            misalignment_length_m=section.misalignment_length_m, **kw,
+        )
+
+    def stability(self, section: Section, ballast: str | None = None):
+        from trackplan import stability
+
+        return stability.analyse_stability(self.track_input(section, ballast))
+
+    def longitudinal_resistance(self, section: Section) -> float:
+        """Longitudinal resistance per rail for the cold side [N/m] (the preset's when held rigid)."""
+        inp = self.track_input(section)
+        r = inp.longitudinal_resistance_N_per_m
+        if r is None:
+            from trackplan import stability
+
+            r = stability.track_parameters(section.profile, section.steel, section.sleeper, section.ballast,
+                                           section.shoulder).longitudinal_resistance_N_per_m
+        return float(r)
+
+    # -- the whole assessment -------------------------------------------
+    def assess(self, section: Section) -> SectionAssessment:
+        clim = self.climate(section)
+        stab = self.stability(section)
+        r = self.longitudinal_resistance(section)
+        st = section.steel
+        A = section.profile.area_m2
+        tgt = target_mod.recommend_neutral(
+            clim.design_max_C, clim.design_min_C, float(stab.allowable_rise_K), section.drift_allowance_K,
+            st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m, section.tension_stress_limit_Pa,
+            section.laying_tolerance_K,
+        )
+        chk = check_mod.check_section(
+            section.latest_neutral_temperature_C, section.drift_allowance_K, clim.design_max_C, clim.design_min_C,
+            float(stab.allowable_rise_K), st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m,
+            section.tension_stress_limit_Pa, tgt.target_neutral_temperature_C, clim.hot_month, section.neutral_basis,
+        )
+        annual = clim.design.annual
+        rec_max = float(annual["max_rail_temperature_C"].max()) if len(annual) else None
+        rec_min = float(annual["min_rail_temperature_C"].min()) if len(annual) else None
+        practice = target_mod.regional_practice(rec_max, rec_min, clim.design_max_C, clim.design_min_C,
+                                                tunnel=section.shade_factor >= 0.9)
+        return SectionAssessment(section, clim, stab, r, tgt, chk, practice)
+
+    def assess_all(self, sections: list[Section], progress=None) -> tuple[list[SectionAssessment], list[InputError]]:
+        """Assess every section, grouped by climate record; problems are collected, not raised.
+
+        Returns the assessments in the order of ``sections`` and the problems found.
+        """
+        order = sorted(range(len(sections)), key=lambda i: (str(sections[i].climate_path),
+                                                             sections[i].latitude_deg or 0.0,
+                                                             sections[i].longitude_deg or 0.0))
+        results: dict[int, SectionAssessment] = {}
+        problems: list[InputError] = []
+        for i in order:
+            try:
+                results[i] = self.assess(sections[i])
+            except InputError as exc:
+                problems.append(exc)
+            if progress is not None:
+                progress()
+        return [results[i] for i in range(len(sections)) if i in results], problems

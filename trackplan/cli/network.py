@@ -1,0 +1,53 @@
+"""Shared steps of the commands that work on a section file (target, check, demo):
+read the file, assess every section with a progress bar on a terminal, report problems."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from trackplan.cli.common import err_console, progress_enabled
+from trackplan.errors import InputError
+
+SECTIONS_ARG = typer.Argument(..., help="Section file (TOML): [defaults] and one [sections.ID] table per welded section.")
+STRICT_OPTION = typer.Option(False, "--strict", help="Refuse the whole file if any section is bad (default: assess the good ones, report the bad, exit 2).")
+RETURN_PERIOD_OPTION = typer.Option(None, "--return-period", help="Return period of the design temperatures in years (default: each section's, 50).")
+DISTRIBUTION_OPTION = typer.Option("gumbel", "--distribution", help="Extreme-value distribution for the design temperatures: gumbel or gev.")
+
+
+def load_and_assess(path: Path, strict: bool, return_period: float | None, distribution: str):
+    """Read the section file and assess its sections.
+
+    Returns ``(assessments, problems)``; with ``strict`` the first problem is raised.
+    """
+    from trackplan.assess import Assessor
+    from trackplan.sections import load_sections
+
+    if return_period is not None and not 2 <= return_period <= 1000:
+        raise InputError(f"{return_period:g} years is outside 2..1000", "--return-period")
+    if distribution not in ("gumbel", "gev"):
+        raise InputError(f"unknown distribution {distribution!r}; accepted: gumbel, gev", "--distribution")
+    sf = load_sections(path, strict=strict)
+    assessor = Assessor(return_period, distribution)
+    if progress_enabled() and len(sf.sections) > 3:
+        from rich.progress import Progress
+
+        with Progress(console=err_console, transient=True) as bar:
+            task = bar.add_task("assessing sections", total=len(sf.sections))
+            results, problems = assessor.assess_all(sf.sections, progress=lambda: bar.advance(task))
+    else:
+        results, problems = assessor.assess_all(sf.sections)
+    problems = sf.problems + problems
+    if strict and problems:
+        raise problems[0]
+    return results, problems, assessor
+
+
+def report_problems(problems: list[InputError]) -> None:
+    """Print each bad section on stderr (the good ones have been reported)."""
+    for p in problems:
+        err_console.print(f"[bold red]error:[/] {p}", highlight=False, soft_wrap=True)
+    if problems:
+        err_console.print(f"{len(problems)} section(s) could not be assessed; the others are above.",
+                          highlight=False)

@@ -1,0 +1,112 @@
+"""``trackplan target``: recommended neutral temperature and laying range per section."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Optional
+
+import typer
+from rich.table import Table
+
+from trackplan import CAUTION, units
+from trackplan.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, print_caution
+from trackplan.cli.network import (DISTRIBUTION_OPTION, RETURN_PERIOD_OPTION, SECTIONS_ARG, STRICT_OPTION,
+                                   load_and_assess, report_problems)
+
+
+def target_json(a) -> dict:
+    """JSON row of one section (SI, units in keys)."""
+    t = a.target
+    return {
+        "id": a.section.id,
+        "name": a.section.name,
+        "target_neutral_temperature_C": t.target_neutral_temperature_C,
+        "laying_range_C": list(t.laying_range_C) if t.laying_range_C else None,
+        "feasible_window_C": list(t.feasible_window_C) if t.feasible_window_C else None,
+        "feasible": t.feasible,
+        "narrow_window": t.narrow,
+        "heat_floor_C": t.heat_floor_C,
+        "cold_ceiling_C": t.cold_ceiling_C,
+        "governing_cold_limit": t.governing_cold,
+        "shortfall_K": t.shortfall_K,
+        "design_max_rail_temperature_C": a.climate.design_max_C,
+        "design_min_rail_temperature_C": a.climate.design_min_C,
+        "design_basis": a.climate.design.design_basis,
+        "return_period_years": a.climate.design.return_period_years,
+        "allowable_rise_K": a.allowable_rise_K,
+        "drift_allowance_K": a.section.drift_allowance_K,
+        "explanation": t.explanation,
+        "would_open_window": t.openers,
+        "regional_practice": [
+            {"name": r.name, "neutral_C": list(r.neutral_C) if r.neutral_C else None, "note": r.note, "source": r.source}
+            for r in a.practice
+        ],
+        "warnings": a.climate.warnings,
+    }
+
+
+def print_targets(results, s: str) -> None:
+    """Terminal table of targets."""
+    table = Table(title="Recommended neutral temperature")
+    for head in ("section", "design max " + f"({units.label(units.display_unit('temperature', s))})",
+                 "design min", units.header("allowable rise", "temperature_difference", s),
+                 "feasible window", "target", "laying range", "governs (cold)"):
+        table.add_column(head, justify="left" if head in ("section", "governs (cold)") else "right", overflow="fold")
+    T = lambda v: units.number(v, "temperature", s)
+    for a in results:
+        t = a.target
+        win = f"{T(t.heat_floor_C)} – {T(t.cold_ceiling_C)}" if t.feasible else f"[red]empty ({t.shortfall_K:.1f} K short)[/]"
+        rng = f"{T(t.laying_range_C[0])} – {T(t.laying_range_C[1])}" if t.laying_range_C else "–"
+        table.add_row(a.section.id, T(a.climate.design_max_C), T(a.climate.design_min_C),
+                      units.number(a.allowable_rise_K, "temperature_difference", s), win,
+                      T(t.target_neutral_temperature_C) if t.feasible else "–", rng, t.governing_cold)
+    console.print(table)
+    for a in results:
+        t = a.target
+        if not t.feasible:
+            console.print(f"[bold red]{a.section.id}[/]: no neutral temperature satisfies both heat and cold limits "
+                          f"({t.shortfall_K:.1f} K short). What would open the window:", highlight=False)
+            for o in t.openers:
+                console.print(f"  • {o}", highlight=False)
+        elif t.narrow:
+            console.print(f"[yellow]{a.section.id}[/]: the window is narrower than the laying range; lay within it.",
+                          highlight=False)
+    if results:
+        rules = "; ".join(
+            f"{r.name} {units.number(r.neutral_C[0], 'temperature', s, 0)}"
+            + (f"–{units.number(r.neutral_C[1], 'temperature', s, 0)}" if r.neutral_C[1] != r.neutral_C[0] else "")
+            for r in results[0].practice if r.neutral_C)
+        console.print(f"Regional practice for context (first section): {rules} "
+                      f"({units.label(units.display_unit('temperature', s))}).", highlight=False)
+
+
+@command("target")
+def target_cmd(
+    sections_file: Path = SECTIONS_ARG,
+    return_period: Optional[float] = RETURN_PERIOD_OPTION,
+    distribution: str = DISTRIBUTION_OPTION,
+    strict: bool = STRICT_OPTION,
+    system: UnitSystem = UNITS_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Recommend the neutral (stress-free) temperature to install on each welded section.
+
+    From the design hot and cold rail temperatures (the section's climate record and
+    return period), the allowable rise from the lateral stability analysis, the drift
+    allowance and the cold-side limits (pull-apart gap, tension stress): the feasible
+    window, a target biased to the hot side, and a laying range. An empty window is
+    said plainly, with what would open it. Regional rules of practice are shown for
+    context.
+
+    Example: trackplan target examples/network.toml --units us
+    """
+    results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution)
+    if as_json:
+        emit_json({"sections": [target_json(a) for a in results], "problems": [str(p) for p in problems],
+                   "caution": CAUTION})
+    else:
+        print_targets(results, system.value)
+        print_caution()
+    report_problems(problems)
+    if problems:
+        raise typer.Exit(2)
