@@ -18,6 +18,9 @@ COMMAND_MODULES = [
     "profiles",
     "force",
     "destress",
+    "target",
+    "check",
+    "demo",
 ]
 
 for _name in COMMAND_MODULES:
