@@ -682,13 +682,15 @@ class PreparedRecord:
 
 
 def _interval_convention(meta: dict) -> str:
-    """What a timestamp stands for: meta ``interval_label`` or the file format's rule.
+    """What a timestamp stands for: the reader's ``irradiance_timing`` or the format's rule.
 
-    TMY3 and EPW values (irradiance in particular) are averages or totals of
-    the hour *ending* at the timestamp (NSRDB TMY3 user's manual; EnergyPlus
-    weather file documentation); other records are taken as instantaneous.
+    TMY3 and EPW irradiance is the mean of the hour *ending* at the timestamp
+    (TMY3 User's Manual, Wilcox and Marion 2008); other records are taken as
+    instantaneous unless the metadata says otherwise. Where the reader gives
+    ``solar_position_shift_min`` that shift is used for the solar position.
     """
-    label = str(meta.get("interval_label") or "").lower()
+    label = str(meta.get("irradiance_timing") or meta.get("interval_label") or "").lower()
+    label = {"hour-ending": "ending", "hour-beginning": "beginning"}.get(label, label)
     if label in ("ending", "beginning", "instant"):
         return label
     fmt = str(meta.get("source_format") or "").lower()
@@ -822,8 +824,12 @@ def prepare_solar(df, meta: dict, site: RailSite, params: HeatBalanceParameters 
         )
     step = np.where(bad, typical, step)
     interval = _interval_convention(meta)
-    shift = {"ending": -0.5, "beginning": 0.5, "instant": 0.0}[interval]
-    times_mid = idx + pd.to_timedelta(shift * step, unit="s") if shift else idx
+    shift_min = meta.get("solar_position_shift_min")
+    if shift_min is not None and math.isfinite(float(shift_min)):
+        shift_s = np.full(n, float(shift_min) * 60.0)
+    else:
+        shift_s = {"ending": -0.5, "beginning": 0.5, "instant": 0.0}[interval] * step
+    times_mid = idx + pd.to_timedelta(shift_s, unit="s") if np.any(shift_s) else idx
     elev, az = solar_position(times_mid, site.latitude_deg, site.longitude_deg, site.elevation_m)
 
     air = df["air_temperature_C"].to_numpy(float)
@@ -863,6 +869,14 @@ def prepare_solar(df, meta: dict, site: RailSite, params: HeatBalanceParameters 
         warnings.append("no irradiance in the record; clear-sky irradiance (Ineichen) assumed every hour "
                         "(conservative for the maximum)")
 
+    wind_h = meta.get("wind_height_m")
+    if wind_h is not None and math.isfinite(float(wind_h)) and float(wind_h) > 0 \
+            and abs(float(wind_h) - params.anemometer_height_m) > 1e-9:
+        # bring the measured wind to the 10 m reference with the same log profile
+        z0 = params.roughness_length_m
+        wind = wind * math.log(params.anemometer_height_m / z0) / math.log(float(wind_h) / z0)
+        warnings.append(f"wind measured at {float(wind_h):g} m brought to {params.anemometer_height_m:g} m "
+                        "by a logarithmic profile")
     dates, starts = _local_dates(times_mid)
     return PreparedRecord(
         times=idx,

@@ -1,0 +1,733 @@
+"""Design extremes: annual rail temperature extremes, extreme-value fits, return levels.
+
+Planning needs the rail temperature that is reached with a stated chance, not
+the hottest day of one year (DOMAIN.md 5). From daily rail extremes (see
+:func:`trackplan.railtemp.daily_rail_extremes`) this module takes
+
+* the annual maximum and minimum of each complete-enough year
+  (:func:`annual_extremes`);
+* an extreme-value fit of the annual maxima and of the negated annual minima,
+  Gumbel or GEV (:data:`DISTRIBUTIONS`), by maximum likelihood;
+* the return level for a return period ``T`` years, the ``1 - 1/T`` quantile
+  of the fitted annual-maximum distribution (for minima: the value the annual
+  minimum falls below once in ``T`` years on average);
+* a confidence interval: parametric bootstrap with a fixed seed (Gumbel, fast
+  and vectorised) or the delta method on the observed information (GEV, as in
+  Coles 2001, 3.3.3; a bootstrap is available too).
+
+Records shorter than :data:`SHORT_RECORD_YEARS` years are fitted with a
+warning; with fewer than :data:`MIN_FIT_YEARS` years, or for a typical-year
+file, the design values are the observed extremes and the result says so
+(``design_basis = "observed"``).
+
+References
+----------
+Coles, S. (2001). An Introduction to Statistical Modeling of Extreme Values.
+Springer, London. Ch. 3 (GEV for block maxima, return levels, delta method,
+example 3.4.1 Port Pirie annual maximum sea levels).
+Gumbel, E. J. (1958). Statistics of Extremes. Columbia University Press.
+Jenkinson, A. F. (1955). The frequency distribution of the annual maximum (or
+minimum) values of meteorological elements. QJRMS 81, 158-171 (GEV).
+Efron, B., Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman
+& Hall, ch. 13 (percentile intervals).
+Gringorten, I. I. (1963). A plotting rule for extreme probability paper.
+Journal of Geophysical Research 68, 813-814 (plotting positions).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Callable
+
+import numpy as np
+
+from trackplan.errors import InputError
+
+#: Fewer complete years than this: design values are the observed extremes.
+MIN_FIT_YEARS = 3
+#: Fewer complete years than this: the fit is made, with a warning.
+SHORT_RECORD_YEARS = 10
+#: A year is complete enough with at least this share of its days ...
+YEAR_MIN_COVERAGE = 0.9
+#: ... and at least this share of the days of every month (a missing July
+#: would hide the year's maximum).
+MONTH_MIN_COVERAGE = 0.7
+
+_EULER_GAMMA = 0.5772156649015329
+
+
+# --------------------------------------------------------------------------
+# Annual extremes
+# --------------------------------------------------------------------------
+
+
+def annual_extremes(daily, typical_year: bool = False, years=None):
+    """Annual maxima and minima of daily rail and air temperature.
+
+    Parameters
+    ----------
+    daily : pandas.DataFrame
+        Index of local dates; columns ``rail_max_C``, ``rail_min_C``,
+        ``air_max_C``, ``air_min_C`` [degC]; NaN on days without data.
+    typical_year : bool
+        The record is a typical (synthetic) year: one row, no completeness
+        test across years.
+    years : iterable of int, optional
+        Years the reader found complete; others are dropped with a warning.
+
+    Returns
+    -------
+    (pandas.DataFrame, list of str)
+        Columns ``year``, ``max_rail_temperature_C``,
+        ``min_rail_temperature_C``, ``max_air_temperature_C``,
+        ``min_air_temperature_C`` [degC], ``days`` (days with data); and the
+        warnings (years dropped and why).
+
+    Notes
+    -----
+    A year is kept when at least :data:`YEAR_MIN_COVERAGE` of its days and
+    :data:`MONTH_MIN_COVERAGE` of each month's days have both rail extremes.
+    """
+    import pandas as pd
+
+    cols = ["rail_max_C", "rail_min_C", "air_max_C", "air_min_C"]
+    missing = [c for c in cols if c not in daily.columns]
+    if missing:
+        raise InputError(f"daily extremes need the columns {', '.join(missing)}", "daily rail extremes")
+    idx = pd.DatetimeIndex(daily.index)
+    ok = np.isfinite(daily["rail_max_C"].to_numpy(float)) & np.isfinite(daily["rail_min_C"].to_numpy(float))
+    out_cols = ["year", "max_rail_temperature_C", "min_rail_temperature_C", "max_air_temperature_C",
+                "min_air_temperature_C", "days"]
+    warnings: list[str] = []
+    if typical_year:
+        yr = pd.Series(idx.year).mode()
+        label = int(yr.iloc[0]) if len(yr) else 0
+        d = daily[ok]
+        if d.empty:
+            raise InputError("the typical-year record has no day with rail extremes", "record")
+        row = [label, d.rail_max_C.max(), d.rail_min_C.min(), d.air_max_C.max(), d.air_min_C.min(), int(ok.sum())]
+        return pd.DataFrame([row], columns=out_cols), warnings
+
+    year = idx.year.to_numpy()
+    month = idx.month.to_numpy()
+    frame = pd.DataFrame(
+        {"year": year, "month": month, "ok": ok, **{c: daily[c].to_numpy(float) for c in cols}}
+    )
+    # days with data per month against calendar days
+    per_month = frame.groupby(["year", "month"])["ok"].sum()
+    rows = []
+    allowed = None if years is None else {int(y) for y in years}
+    for y in sorted(set(year.tolist())):
+        y = int(y)
+        n_days = 366 if pd.Timestamp(y, 12, 31).day_of_year == 366 else 365
+        got = np.array([per_month.get((y, m), 0) for m in range(1, 13)], dtype=float)
+        dim = np.array([pd.Timestamp(y, m, 1).days_in_month for m in range(1, 13)], dtype=float)
+        cover = got.sum() / n_days
+        mcover = (got / dim).min()
+        if allowed is not None and y not in allowed:
+            warnings.append(f"year {y} left out: the record is not complete enough in that year")
+            continue
+        if cover < YEAR_MIN_COVERAGE or mcover < MONTH_MIN_COVERAGE:
+            warnings.append(
+                f"year {y} left out: {cover:.0%} of its days have data (need {YEAR_MIN_COVERAGE:.0%}, "
+                f"and {MONTH_MIN_COVERAGE:.0%} of every month; poorest month {mcover:.0%})"
+            )
+            continue
+        sel = (year == y) & ok
+        f = frame[sel]
+        rows.append([y, f.rail_max_C.max(), f.rail_min_C.min(), f.air_max_C.max(), f.air_min_C.min(), int(sel.sum())])
+    return pd.DataFrame(rows, columns=out_cols), warnings
+
+
+# --------------------------------------------------------------------------
+# Distributions
+# --------------------------------------------------------------------------
+
+
+def gumbel_fit_ml(x, iterations: int = 50):
+    """Maximum-likelihood Gumbel (maxima) parameters, vectorised over rows.
+
+    Parameters
+    ----------
+    x : array, shape (n,) or (B, n)
+        Annual maxima (each row one sample).
+    iterations : int
+        Newton iterations at most.
+
+    Returns
+    -------
+    (mu, beta) : arrays of shape () or (B,)
+        Location and scale (``x`` units).
+
+    Notes
+    -----
+    The likelihood equations (Gumbel 1958; Coles 2001, 3.3.1) reduce to one
+    equation in ``beta``::
+
+        g(beta) = beta - mean(x) + sum(x w) / sum(w) = 0,  w = exp(-x / beta)
+        mu = -beta ln(mean(w))
+
+    ``g' = 1 + var_w(x) / beta**2 > 0``, so Newton's method from the moment
+    estimate ``beta0 = sqrt(6) s / pi`` converges to the single root. The data
+    are standardised per row first for numerical safety.
+    """
+    x = np.asarray(x, dtype=float)
+    one = x.ndim == 1
+    X = np.atleast_2d(x)
+    m = X.mean(axis=1, keepdims=True)
+    s = X.std(axis=1, ddof=1, keepdims=True)
+    s = np.where(s > 0, s, 1.0)
+    z = (X - m) / s
+    beta = np.full((X.shape[0], 1), math.sqrt(6.0) / math.pi)
+    for _ in range(iterations):
+        zz = z - z.max(axis=1, keepdims=True)  # shift inside the exponent, cancels in the ratio
+        w = np.exp(-zz / beta)
+        sw = w.sum(axis=1, keepdims=True)
+        mw = (z * w).sum(axis=1, keepdims=True) / sw
+        vw = (z * z * w).sum(axis=1, keepdims=True) / sw - mw**2
+        g = beta - z.mean(axis=1, keepdims=True) + mw
+        step = g / (1.0 + vw / beta**2)
+        beta = np.maximum(beta - step, beta / 10.0)
+        if np.all(np.abs(step) < 1e-12):
+            break
+    zmax = z.max(axis=1, keepdims=True)
+    mu = zmax - beta * np.log(np.mean(np.exp(-(z - zmax) / beta), axis=1, keepdims=True))
+    mu = (m + s * mu)[:, 0]
+    beta = (s * beta)[:, 0]
+    if one:
+        return float(mu[0]), float(beta[0])
+    return mu, beta
+
+
+def gumbel_quantile(p, mu, beta):
+    """Gumbel (maxima) quantile ``mu - beta ln(-ln p)``; ``p = 1 - 1/T`` gives the return level."""
+    return np.asarray(mu) - np.asarray(beta) * np.log(-np.log(np.asarray(p, dtype=float)))
+
+
+def gumbel_moments(mean, std):
+    """Method-of-moments Gumbel parameters from the sample mean and standard deviation.
+
+    ``beta = sqrt(6) s / pi``, ``mu = mean - 0.5772 beta`` (Gumbel 1958;
+    Chow, Maidment & Mays 1988, Applied Hydrology, 12.2).
+    """
+    beta = math.sqrt(6.0) * std / math.pi
+    return mean - _EULER_GAMMA * beta, beta
+
+
+@dataclass(frozen=True)
+class Distribution:
+    """One extreme-value distribution for annual maxima.
+
+    Attributes
+    ----------
+    name : str
+    n_params : int
+    fit : callable
+        ``fit(x) -> params`` (maximum likelihood).
+    quantile : callable
+        ``quantile(p, params) -> x``; broadcasts over rows of ``params``.
+    fit_many : callable
+        ``fit_many(X) -> params array (B, k)`` for bootstrap samples.
+    sample : callable
+        ``sample(rng, params, size) -> array``.
+    nll : callable
+        Negative log-likelihood ``nll(params, x)`` (for the delta method).
+    source : str
+    """
+
+    name: str
+    n_params: int
+    fit: Callable
+    quantile: Callable
+    fit_many: Callable
+    sample: Callable
+    nll: Callable
+    source: str
+
+
+def _gumbel_fit(x):
+    return gumbel_fit_ml(x)
+
+
+def _gumbel_quantile(p, params):
+    params = np.asarray(params, dtype=float)
+    return gumbel_quantile(p, params[..., 0], params[..., 1])
+
+
+def _gumbel_fit_many(X):
+    mu, beta = gumbel_fit_ml(X)
+    return np.column_stack([mu, beta])
+
+
+def _gumbel_sample(rng, params, size):
+    return rng.gumbel(params[0], params[1], size=size)
+
+
+def _gumbel_nll(params, x):
+    mu, beta = params
+    if beta <= 0:
+        return np.inf
+    z = (np.asarray(x) - mu) / beta
+    return float(len(z) * math.log(beta) + np.sum(z + np.exp(-z)))
+
+
+def _gev_fit(x):
+    from scipy import stats
+
+    x = np.asarray(x, dtype=float)
+    mu0, b0 = gumbel_fit_ml(x)
+    c, loc, scale = stats.genextreme.fit(x, 0.0, loc=mu0, scale=b0)
+    return -c, loc, scale  # shape xi in Coles' sign convention
+
+
+def _gev_quantile(p, params):
+    """GEV quantile with Coles' shape ``xi`` (xi > 0 heavy upper tail); params (xi, mu, sigma)."""
+    params = np.asarray(params, dtype=float)
+    xi, mu, sigma = params[..., 0], params[..., 1], params[..., 2]
+    y = -np.log(np.asarray(p, dtype=float))
+    small = np.abs(xi) < 1e-8
+    xi_safe = np.where(small, 1.0, xi)
+    q = mu - sigma / xi_safe * (1.0 - y ** (-xi_safe))
+    return np.where(small, mu - sigma * np.log(y), q)
+
+
+def _gev_fit_many(X):
+    return np.array([_gev_fit(row) for row in np.atleast_2d(X)])
+
+
+def _gev_sample(rng, params, size):
+    from scipy import stats
+
+    xi, mu, sigma = params
+    return stats.genextreme.rvs(-xi, loc=mu, scale=sigma, size=size, random_state=rng)
+
+
+def _gev_nll(params, x):
+    from scipy import stats
+
+    xi, mu, sigma = params
+    if sigma <= 0:
+        return np.inf
+    return float(stats.genextreme.nnlf((-xi, mu, sigma), np.asarray(x)))
+
+
+#: Extreme-value distributions by name.
+DISTRIBUTIONS: dict[str, Distribution] = {
+    "gumbel": Distribution("gumbel", 2, _gumbel_fit, _gumbel_quantile, _gumbel_fit_many, _gumbel_sample,
+                           _gumbel_nll, "Gumbel (1958); maximum likelihood, Coles (2001) 3.3"),
+    "gev": Distribution("gev", 3, _gev_fit, _gev_quantile, _gev_fit_many, _gev_sample, _gev_nll,
+                        "Jenkinson (1955); maximum likelihood via scipy.stats.genextreme, Coles (2001) 3.3"),
+}
+
+
+def _numerical_hessian(f, theta, rel: float = 1e-4):
+    theta = np.asarray(theta, dtype=float)
+    k = theta.size
+    h = rel * np.maximum(np.abs(theta), 0.1)
+    H = np.empty((k, k))
+    f0 = f(theta)
+    for i in range(k):
+        for j in range(i, k):
+            if i == j:
+                e = np.zeros(k)
+                e[i] = h[i]
+                H[i, i] = (f(theta + e) - 2 * f0 + f(theta - e)) / h[i] ** 2
+            else:
+                ei = np.zeros(k)
+                ej = np.zeros(k)
+                ei[i] = h[i]
+                ej[j] = h[j]
+                H[i, j] = H[j, i] = (
+                    f(theta + ei + ej) - f(theta + ei - ej) - f(theta - ei + ej) + f(theta - ei - ej)
+                ) / (4 * h[i] * h[j])
+    return H
+
+
+@dataclass
+class ExtremeFit:
+    """A fitted extreme-value distribution of annual maxima (or negated minima).
+
+    Attributes
+    ----------
+    distribution : str
+        ``"gumbel"`` or ``"gev"``.
+    tail : str
+        ``"max"`` (fitted to the annual maxima) or ``"min"`` (fitted to the
+        negated annual minima; levels are negated back).
+    params : tuple of float
+        Gumbel ``(mu, beta)`` or GEV ``(xi, mu, sigma)`` (Coles' sign of the
+        shape) of the fitted series [degC for location and scale].
+    n_years : int
+    ci_method : str
+        ``"bootstrap"``, ``"delta"`` or ``"none"``.
+    ci_level : float
+    boot_params : numpy.ndarray or None
+        Bootstrap parameter sets, shape (n_boot, k).
+    covariance : numpy.ndarray or None
+        Covariance of the parameter estimates (delta method).
+    """
+
+    distribution: str
+    tail: str
+    params: tuple
+    n_years: int
+    ci_method: str = "none"
+    ci_level: float = 0.95
+    boot_params: np.ndarray | None = field(default=None, repr=False)
+    covariance: np.ndarray | None = field(default=None, repr=False)
+
+    def _sign(self) -> float:
+        return 1.0 if self.tail == "max" else -1.0
+
+    def return_level(self, return_period_years):
+        """Return level(s) [degC] for return period(s) [years] (> 1)."""
+        T = np.asarray(return_period_years, dtype=float)
+        p = 1.0 - 1.0 / T
+        return self._sign() * DISTRIBUTIONS[self.distribution].quantile(p, np.asarray(self.params))
+
+    def interval(self, return_period_years):
+        """Confidence interval ``(low, high)`` [degC] of the return level(s), or None."""
+        T = np.atleast_1d(np.asarray(return_period_years, dtype=float))
+        p = 1.0 - 1.0 / T
+        dist = DISTRIBUTIONS[self.distribution]
+        alpha = 1.0 - self.ci_level
+        if self.ci_method == "bootstrap" and self.boot_params is not None:
+            levels = dist.quantile(p[None, :], self.boot_params[:, None, :])  # (B, nT)
+            levels = levels[np.all(np.isfinite(levels), axis=1)]
+            lo = np.quantile(levels, alpha / 2, axis=0)
+            hi = np.quantile(levels, 1 - alpha / 2, axis=0)
+        elif self.ci_method == "delta" and self.covariance is not None:
+            from scipy import stats
+
+            theta = np.asarray(self.params, dtype=float)
+            z = stats.norm.ppf(1 - alpha / 2)
+            centre = dist.quantile(p, theta)
+            lo, hi = np.empty_like(p), np.empty_like(p)
+            for i, pi in enumerate(p):
+                g = np.empty(theta.size)
+                for k in range(theta.size):
+                    h = 1e-6 * max(abs(theta[k]), 0.1)
+                    e = np.zeros(theta.size)
+                    e[k] = h
+                    g[k] = (dist.quantile(pi, theta + e) - dist.quantile(pi, theta - e)) / (2 * h)
+                se = math.sqrt(max(float(g @ self.covariance @ g), 0.0))
+                lo[i], hi[i] = centre[i] - z * se, centre[i] + z * se
+        else:
+            return None
+        if self.tail == "min":
+            lo, hi = -hi, -lo
+        return lo, hi
+
+
+def fit_extremes(values, distribution: str = "gumbel", tail: str = "max", ci_method: str = "auto",
+                 n_boot: int = 200, seed: int = 0, ci_level: float = 0.95) -> ExtremeFit:
+    """Fit annual maxima (``tail="max"``) or minima (``tail="min"``).
+
+    Parameters
+    ----------
+    values : array
+        Annual maxima or minima [degC].
+    distribution : str
+        Key of :data:`DISTRIBUTIONS`.
+    tail : {"max", "min"}
+        Minima are fitted as negated maxima.
+    ci_method : {"auto", "bootstrap", "delta", "none"}
+        ``auto``: parametric bootstrap for Gumbel, delta method for GEV
+        (a GEV bootstrap refits by numerical optimisation and is slow).
+    n_boot : int
+        Bootstrap samples.
+    seed : int
+        Seed of the bootstrap's random generator (results are reproducible).
+    ci_level : float
+        Two-sided confidence level, e.g. 0.95.
+
+    Returns
+    -------
+    ExtremeFit
+
+    Notes
+    -----
+    Parametric bootstrap (Efron & Tibshirani 1993, ch. 6 and 13): draw
+    ``n_boot`` samples of the record's length from the fitted distribution,
+    refit each by maximum likelihood, and take the percentile interval of the
+    return levels. Delta method (Coles 2001, 3.3.3): variance of the return
+    level ``grad(x_T)' V grad(x_T)`` with ``V`` the inverse of the observed
+    information (numerical Hessian of the negative log-likelihood).
+    """
+    if distribution not in DISTRIBUTIONS:
+        raise InputError(f"unknown distribution {distribution!r}; accepted: {', '.join(DISTRIBUTIONS)}",
+                         "--distribution")
+    if tail not in ("max", "min"):
+        raise ValueError("tail must be 'max' or 'min'")
+    x = np.asarray(values, dtype=float)
+    x = x[np.isfinite(x)]
+    if x.size < MIN_FIT_YEARS:
+        raise InputError(f"{x.size} annual values are too few to fit (need {MIN_FIT_YEARS})", "record")
+    if tail == "min":
+        x = -x
+    dist = DISTRIBUTIONS[distribution]
+    if np.ptp(x) == 0:
+        # every year the same: a degenerate fit, no interval
+        params = (float(x[0]), 1e-9) if distribution == "gumbel" else (0.0, float(x[0]), 1e-9)
+        return ExtremeFit(distribution, tail, params, int(x.size), "none", ci_level)
+    params = tuple(float(v) for v in dist.fit(x))
+    if ci_method == "auto":
+        ci_method = "bootstrap" if distribution == "gumbel" else "delta"
+    fit = ExtremeFit(distribution, tail, params, int(x.size), ci_method, ci_level)
+    if ci_method == "bootstrap" and n_boot > 0:
+        rng = np.random.default_rng(seed)
+        samples = np.vstack([dist.sample(rng, params, x.size) for _ in range(n_boot)]) \
+            if distribution != "gumbel" else rng.gumbel(params[0], params[1], size=(n_boot, x.size))
+        fit.boot_params = np.asarray(dist.fit_many(samples), dtype=float)
+    elif ci_method == "delta":
+        H = _numerical_hessian(lambda th: dist.nll(th, x), np.asarray(params))
+        try:
+            cov = np.linalg.inv(H)
+        except np.linalg.LinAlgError:
+            cov = None
+        if cov is None or not np.all(np.isfinite(cov)) or np.any(np.diag(cov) < 0):
+            fit.ci_method = "none"
+        else:
+            fit.covariance = cov
+    elif ci_method not in ("none", "bootstrap"):
+        raise InputError(f"unknown interval method {ci_method!r}; accepted: auto, bootstrap, delta, none",
+                         "ci_method")
+    else:
+        fit.ci_method = "none" if n_boot <= 0 else ci_method
+    return fit
+
+
+def plotting_positions(n: int):
+    """Gringorten (1963) non-exceedance probabilities ``(i - 0.44) / (n + 0.12)``, i = 1..n."""
+    i = np.arange(1, n + 1)
+    return (i - 0.44) / (n + 0.12)
+
+
+# --------------------------------------------------------------------------
+# Design extremes
+# --------------------------------------------------------------------------
+
+
+@dataclass
+class DesignExtremes:
+    """Design rail temperatures of a record and how they were obtained.
+
+    Attributes
+    ----------
+    design_basis : str
+        ``"gumbel"``, ``"gev"`` (fitted return levels) or ``"observed"``
+        (observed extremes of a short or typical-year record).
+    return_period_years : float
+        Return period of the design values [years].
+    design_max_rail_temperature_C, design_min_rail_temperature_C : float
+        Design maximum and minimum rail temperature [degC].
+    max_ci_C, min_ci_C : tuple of float or None
+        Confidence interval of each design value [degC] (None for observed).
+    max_air_temperature_C, min_air_temperature_C : float
+        Highest and lowest daily air temperature over the years used [degC].
+    years : int
+        Number of years used.
+    annual : pandas.DataFrame
+        ``year``, ``max_rail_temperature_C``, ``min_rail_temperature_C``,
+        ``max_air_temperature_C``, ``min_air_temperature_C``, ``days``.
+    warnings : list of str
+    distribution : str
+        Distribution asked for.
+    ci_level : float
+        Confidence level of the intervals.
+    observed_max_rail_temperature_C, observed_min_rail_temperature_C : float
+        Observed extremes over the years used [degC].
+    max_fit, min_fit : ExtremeFit or None
+        The fits (for return-level curves).
+    """
+
+    design_basis: str
+    return_period_years: float
+    design_max_rail_temperature_C: float
+    design_min_rail_temperature_C: float
+    max_ci_C: tuple | None
+    min_ci_C: tuple | None
+    max_air_temperature_C: float
+    min_air_temperature_C: float
+    years: int
+    annual: object
+    warnings: list = field(default_factory=list)
+    distribution: str = "gumbel"
+    ci_level: float = 0.95
+    observed_max_rail_temperature_C: float = float("nan")
+    observed_min_rail_temperature_C: float = float("nan")
+    max_fit: ExtremeFit | None = field(default=None, repr=False)
+    min_fit: ExtremeFit | None = field(default=None, repr=False)
+
+    def return_levels(self, periods_years):
+        """Return-level table for plotting: one row per return period.
+
+        Columns ``return_period_years``, ``max_rail_temperature_C``,
+        ``max_low_C``, ``max_high_C``, ``min_rail_temperature_C``,
+        ``min_low_C``, ``min_high_C`` (NaN where there is no fit or interval).
+        """
+        import pandas as pd
+
+        T = np.asarray(periods_years, dtype=float)
+        out = {"return_period_years": T}
+        for tail, fit in (("max", self.max_fit), ("min", self.min_fit)):
+            nan = np.full(T.shape, np.nan)
+            if fit is None:
+                out[f"{tail}_rail_temperature_C"], out[f"{tail}_low_C"], out[f"{tail}_high_C"] = nan, nan, nan
+                continue
+            out[f"{tail}_rail_temperature_C"] = fit.return_level(T)
+            ci = fit.interval(T)
+            out[f"{tail}_low_C"], out[f"{tail}_high_C"] = (ci if ci is not None else (nan, nan))
+        return pd.DataFrame(out)
+
+    def as_json(self, station: str | None = None) -> dict:
+        """The JSON object of the ``railtemp`` command (SI, units in the keys)."""
+        annual = [
+            {
+                "year": int(r.year),
+                "max_rail_temperature_C": float(r.max_rail_temperature_C),
+                "min_rail_temperature_C": float(r.min_rail_temperature_C),
+                "max_air_temperature_C": float(r.max_air_temperature_C),
+                "min_air_temperature_C": float(r.min_air_temperature_C),
+            }
+            for r in self.annual.itertuples(index=False)
+        ]
+        return {
+            "station": station,
+            "years": int(self.years),
+            "design_basis": self.design_basis,
+            "return_period_years": float(self.return_period_years),
+            "design_max_rail_temperature_C": float(self.design_max_rail_temperature_C),
+            "design_min_rail_temperature_C": float(self.design_min_rail_temperature_C),
+            "max_air_temperature_C": float(self.max_air_temperature_C),
+            "min_air_temperature_C": float(self.min_air_temperature_C),
+            "annual": annual,
+            "warnings": list(self.warnings),
+        }
+
+
+def design_extremes(daily, return_period_years: float = 50, distribution: str = "gumbel",
+                    typical_year: bool = False, n_boot: int = 200, seed: int = 0,
+                    ci_level: float = 0.95, years=None, ci_method: str = "auto") -> DesignExtremes:
+    """Design maximum and minimum rail temperature of a record.
+
+    Parameters
+    ----------
+    daily : pandas.DataFrame
+        Daily rail extremes (:func:`trackplan.railtemp.daily_rail_extremes`):
+        index of local dates; ``rail_max_C``, ``rail_min_C``, ``air_max_C``,
+        ``air_min_C`` [degC]. Its ``attrs["warnings"]`` are carried over.
+    return_period_years : float
+        Return period [years], > 1 (e.g. 50: the level exceeded once in 50
+        years on average).
+    distribution : {"gumbel", "gev"}
+        Extreme-value distribution (:data:`DISTRIBUTIONS`).
+    typical_year : bool
+        The record is a typical (synthetic) year: observed extremes, no fit.
+    n_boot : int
+        Bootstrap samples for the interval (Gumbel); 0 for none.
+    seed : int
+        Seed of the bootstrap (reproducible results).
+    ci_level : float
+        Two-sided confidence level of the intervals.
+    years : iterable of int, optional
+        Years the reader found complete (``meta["years"]``).
+    ci_method : str
+        See :func:`fit_extremes`.
+
+    Returns
+    -------
+    DesignExtremes
+
+    Raises
+    ------
+    InputError
+        Return period not above 1 year, unknown distribution, no usable year.
+    """
+    rp = float(return_period_years)
+    if not math.isfinite(rp) or rp <= 1.0:
+        raise InputError(f"return period must be more than 1 year, got {return_period_years!r}",
+                         "--return-period")
+    if distribution not in DISTRIBUTIONS:
+        raise InputError(f"unknown distribution {distribution!r}; accepted: {', '.join(DISTRIBUTIONS)}",
+                         "--distribution")
+    if not 0 < ci_level < 1:
+        raise InputError(f"confidence level must be between 0 and 1, got {ci_level!r}", "ci_level")
+    warnings = list(getattr(daily, "attrs", {}).get("warnings", []))
+    annual, w = annual_extremes(daily, typical_year=typical_year, years=None if typical_year else years)
+    warnings += w
+    if annual.empty:
+        raise InputError("no year of the record is complete enough for annual extremes "
+                         f"(each needs {YEAR_MIN_COVERAGE:.0%} of its days with data)", "record")
+    n = len(annual)
+    obs_max = float(annual.max_rail_temperature_C.max())
+    obs_min = float(annual.min_rail_temperature_C.min())
+    air_max = float(annual.max_air_temperature_C.max())
+    air_min = float(annual.min_air_temperature_C.min())
+    common = dict(
+        return_period_years=rp,
+        max_air_temperature_C=air_max,
+        min_air_temperature_C=air_min,
+        years=n,
+        annual=annual,
+        distribution=distribution,
+        ci_level=ci_level,
+        observed_max_rail_temperature_C=obs_max,
+        observed_min_rail_temperature_C=obs_min,
+    )
+    if typical_year or n < MIN_FIT_YEARS:
+        why = ("a typical-year record stands for no particular year and cannot give a return level"
+               if typical_year else f"{n} complete year(s) are too few to fit (need {MIN_FIT_YEARS})")
+        warnings.append(f"design values are the observed extremes, not {rp:g}-year return levels: {why}")
+        return DesignExtremes(design_basis="observed", design_max_rail_temperature_C=obs_max,
+                              design_min_rail_temperature_C=obs_min, max_ci_C=None, min_ci_C=None,
+                              warnings=warnings, **common)
+    if n < SHORT_RECORD_YEARS:
+        warnings.append(
+            f"only {n} complete years: the {rp:g}-year return levels rest on a short record and "
+            f"are uncertain (about {SHORT_RECORD_YEARS} years or more are needed for a fit to mean much)"
+        )
+    if rp > 4 * n:
+        warnings.append(f"the {rp:g}-year return period is more than four times the {n}-year record: "
+                        "the fit is extrapolated far")
+    fmax = fit_extremes(annual.max_rail_temperature_C, distribution, "max", ci_method, n_boot, seed, ci_level)
+    fmin = fit_extremes(annual.min_rail_temperature_C, distribution, "min", ci_method, n_boot, seed + 1, ci_level)
+    dmax = float(fmax.return_level(rp))
+    dmin = float(fmin.return_level(rp))
+    cmax = fmax.interval(rp)
+    cmin = fmin.interval(rp)
+    if distribution == "gev":
+        for fit, label in ((fmax, "maxima"), (fmin, "minima")):
+            xi = fit.params[0]
+            if xi > 0.3:
+                warnings.append(f"GEV fit of the annual {label} has a heavy tail (shape {xi:.2f}); "
+                                "return levels grow fast with the return period")
+    return DesignExtremes(
+        design_basis=distribution,
+        design_max_rail_temperature_C=dmax,
+        design_min_rail_temperature_C=dmin,
+        max_ci_C=None if cmax is None else (float(cmax[0][0]), float(cmax[1][0])),
+        min_ci_C=None if cmin is None else (float(cmin[0][0]), float(cmin[1][0])),
+        warnings=warnings,
+        max_fit=fmax,
+        min_fit=fmin,
+        **common,
+    )
+
+
+__all__ = [
+    "DISTRIBUTIONS",
+    "DesignExtremes",
+    "Distribution",
+    "ExtremeFit",
+    "MIN_FIT_YEARS",
+    "SHORT_RECORD_YEARS",
+    "annual_extremes",
+    "design_extremes",
+    "fit_extremes",
+    "gumbel_fit_ml",
+    "gumbel_moments",
+    "gumbel_quantile",
+    "plotting_positions",
+]
