@@ -840,8 +840,8 @@ def _add_warnings(p: DestressPlan, s: str) -> None:
             f"The pulled length ({what}) is {m(long[0])}, longer than the {m(p.max_pull_length_m)} taken as the "
             "most one tensor set pulls reliably (from memory, common practice; confirm in your CWR procedure): "
             "friction on the rollers and at the sleepers may stop the stretch short of the far end. "
-            + ("Pull both halves towards a central cut, or " if p.pull == "end" else "")
-            + "split the string into shorter pulled lengths with intermediate fixed points; check every mark.",
+            + ("Pull both halves towards a central cut, or split " if p.pull == "end" else "Split ")
+            + "the string into shorter pulled lengths with intermediate fixed points; check every mark.",
         )
     if p.cut_length_m < 0 and p.mode != "repair" and p.stretch_possible:
         add(

@@ -360,15 +360,23 @@ def _figures(p: destressing.DestressPlan, s: str) -> list[tuple[str, str]]:
     return rows
 
 
+def _observed_columns(p: destressing.DestressPlan) -> list[str]:
+    """Blank columns for the readings: one per pulled length."""
+    return ["observed"] if p.pull == "end" else ["observed half A", "observed half B"]
+
+
 def _marks_table(p: destressing.DestressPlan, s: str) -> Table:
     halves = " (each half)" if p.pull == "centre" else ""
     t = Table(title=f"Reference marks{halves}: distance from the fixed end towards the cut")
     t.add_column("mark", justify="right")
     t.add_column(units.header("distance", "length", s), justify="right")
     t.add_column(units.header("movement", "short_length", s), justify="right")
-    t.add_column("observed", justify="left")
+    obs = _observed_columns(p)
+    for name in obs:
+        t.add_column(name, justify="left")
     for i, (d, m) in enumerate(p.marks):
-        t.add_row(str(i), units.number(d, "length", s, 1), units.number(m, "short_length", s, 1 if s == "si" else 2), "________")
+        t.add_row(str(i), units.number(d, "length", s, 1), units.number(m, "short_length", s, 1 if s == "si" else 2),
+                  *["________"] * len(obs))
     return t
 
 
@@ -418,7 +426,9 @@ def crew_sheet_html(p: destressing.DestressPlan, inputs, figures, s: str) -> str
         overflow = (f"<p class='small'>{len(marks)} marks: more than one page holds; all are listed, "
                     "choose a wider --marks spacing for a one-page sheet.</p>")
     head = (f"<tr><th>mark</th><th>{e(units.header('distance', 'length', s))}</th>"
-            f"<th>{e(units.header('movement', 'short_length', s))}</th><th>observed</th></tr>")
+            f"<th>{e(units.header('movement', 'short_length', s))}</th>"
+            + "".join(f"<th>{e(c)}</th>" for c in _observed_columns(p)) + "</tr>")
+    blanks = "<td></td>" * len(_observed_columns(p))
     blocks = []
     for c in range(ncol):
         chunk = marks[c * per:(c + 1) * per]
@@ -426,7 +436,7 @@ def crew_sheet_html(p: destressing.DestressPlan, inputs, figures, s: str) -> str
             continue
         body = "".join(
             f"<tr><td class='num'>{i}</td><td class='num'>{units.number(d, 'length', s, 1)}</td>"
-            f"<td class='num'>{units.number(m, 'short_length', s, 1 if s == 'si' else 2)}</td><td></td></tr>"
+            f"<td class='num'>{units.number(m, 'short_length', s, 1 if s == 'si' else 2)}</td>{blanks}</tr>"
             for i, (d, m) in chunk
         )
         blocks.append(f"<div><table>{head}{body}</table></div>")

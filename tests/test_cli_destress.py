@@ -1,0 +1,125 @@
+"""CLI: ``trackplan destress`` (terminal crew sheet, JSON, printable HTML, job file, bad input)."""
+
+from __future__ import annotations
+
+import pytest
+
+from trackplan import CAUTION, rails, thermal
+
+BASE = ["destress", "--rail", "60E1", "--length", "400 m", "--rail-temp", "15 degC", "--target", "27 degC"]
+IN = 0.0254
+
+
+def test_json_keys_and_values(run_cli):
+    res, d = run_cli(*BASE, "--marks", "50 m", "--tensor-capacity", "600 kN",
+                     "--observed-movement", "40 mm", "--at-mark", "400 m", "--json", json_out=True)
+    assert res.exit_code == 0
+    for key in ("extension_mm", "weld_allowance_mm", "cut_length_mm", "tensor_force_per_rail_kN", "stretch_possible",
+                "marks", "alpha_per_K", "E_GPa", "area_cm2", "achieved_neutral_temperature_C", "mode", "warnings",
+                "caution"):
+        assert key in d, key
+    assert d["mode"] == "free" and d["caution"] == CAUTION and d["stretch_possible"] is True
+    # hand-worked (formula only): 1.15e-5 * 400 m * 12 K = 55.2 mm; + 25 mm aluminothermic gap
+    assert d["extension_mm"] == pytest.approx(55.2, abs=1e-9)
+    assert d["weld_allowance_mm"] == pytest.approx(25.0)
+    assert d["cut_length_mm"] == pytest.approx(80.2, abs=1e-9)
+    assert d["tensor_force_per_rail_kN"] == pytest.approx(
+        float(thermal.thermal_force(12.0, 210e9, rails.get_profile("60E1").area_m2, 1.15e-5)) / 1e3, rel=1e-12)
+    assert set(d["marks"][1]) == {"distance_m", "movement_mm"}
+    assert d["marks"][-1] == {"distance_m": 400.0, "movement_mm": pytest.approx(55.2)}
+    assert d["achieved_neutral_temperature_C"] == pytest.approx(15 + 0.040 / (1.15e-5 * 400))
+    assert d["area_cm2"] == pytest.approx(76.70) and d["E_GPa"] == pytest.approx(210.0)
+
+
+def test_us_units_and_bare_numbers(run_cli):
+    # 0.078 in per 100 ft per 10 degF (common practice); bare numbers read in ft and degF
+    res, d = run_cli("destress", "--rail", "136RE", "--length", "100", "--rail-temp", "60", "--target", "70",
+                     "--units", "us", "--json", json_out=True)
+    assert d["extension_mm"] / 25.4 == pytest.approx(0.078, abs=0.0005)
+    assert d["length_m"] == pytest.approx(30.48)
+    res = run_cli("destress", "--rail", "136RE", "--length", "1320", "--rail-temp", "60", "--target", "95",
+                  "--units", "us")
+    assert res.exit_code == 0
+    out = res.stdout
+    assert "1320 ft" in out and "60 degF" in out  # echoed with the unit
+    assert "distance (ft)" in out and "movement (in)" in out and "kip" in out
+    assert "Caution:" in out
+
+
+def test_terminal_crew_sheet(run_cli):
+    res = run_cli(*BASE, "--marks", "100 m", "--tensor-capacity", "150 kN")
+    assert res.exit_code == 0
+    out = res.stdout
+    assert "Length to cut out" in out and "80.2 mm" in out
+    assert "Reference marks" in out and "BEYOND CAPACITY" in out
+    assert "Warning:" in out and "Caution:" in out
+
+
+def test_crew_sheet_html(run_cli, tmp_path):
+    res = run_cli(*BASE, "--rail-temp", "31 degC", "--site", "Fictional Junction km 12", "--out", tmp_path / "crew")
+    assert res.exit_code == 0, res.output
+    page = (tmp_path / "crew" / "destress_crew_sheet.html").read_text(encoding="utf-8")
+    assert "@page" in page and "@media print" in page
+    assert "Fictional Junction km 12" in page
+    assert "Signatures" in page and "Readings" in page
+    assert "Warning:" in page and "hotter than the target" in page
+    assert page.count("<tr><td class='num'>") == 9  # marks 0, 50, ..., 400 m
+    assert "Caution:" in page
+    # US units on the sheet too
+    run_cli(*BASE, "--units", "us", "--out", tmp_path / "us")
+    us = (tmp_path / "us" / "destress_crew_sheet.html").read_text(encoding="utf-8")
+    assert "distance (ft)" in us and "movement (in)" in us
+
+
+def test_centre_pull_repair_heating_restrained(run_cli):
+    _, c = run_cli(*BASE, "--length", "800 m", "--pull", "centre", "--json", json_out=True)
+    assert c["pulled_lengths_m"] == [400.0, 400.0] and c["marks"][-1]["distance_m"] == 400.0
+    assert "string_too_long" not in c["warning_codes"]
+    _, r = run_cli("destress", "--rail", "60E1", "--length", "60 m", "--rail-temp", "10 degC",
+                   "--current-neutral", "27 degC", "--removed", "4.5 m", "--json", json_out=True)
+    assert r["mode"] == "repair" and r["pull"] == "centre" and r["target_neutral_temperature_C"] == 27.0
+    assert r["closure_length_mm"] == pytest.approx((4.5 - 1.15e-5 * 4.5 * 17 - 0.050) * 1e3, rel=1e-9)
+    _, h = run_cli(*BASE, "--mode", "heating", "--json", json_out=True)
+    assert h["heating_temperature_C"] == pytest.approx(27.0) and h["tensor_force_per_rail_kN"] == 0.0
+    _, a = run_cli(*BASE, "--current-neutral", "20 degC", "--json", json_out=True)
+    assert a["mode"] == "restrained" and a["extension_mm"] == pytest.approx(1.15e-5 * 400 * 7 * 1e3)
+
+
+def test_job_file_and_override(run_cli, tmp_path):
+    job = tmp_path / "job.toml"
+    job.write_text('[destress]\nrail = "60E1"\nlength = "400 m"\nrail_temp = "15 degC"\ntarget = "27 degC"\n'
+                   'weld = "flash-butt"\n', encoding="utf-8")
+    _, d = run_cli("destress", "--job", job, "--json", json_out=True)
+    assert d["cut_length_mm"] == pytest.approx(55.2 - 35.0)
+    _, d2 = run_cli("destress", "--job", job, "--target", "30 degC", "--json", json_out=True)
+    assert d2["target_neutral_temperature_C"] == 30.0
+
+
+@pytest.mark.parametrize(
+    "args, words",
+    [
+        (["--length", "0 m"], "positive"),
+        (["--length", "-5 m"], "positive"),
+        (["--target", "65 degC"], "-10..60 degC"),
+        (["--target", "150 degF"], "-10..60 degC"),
+        (["--marks", "500 m"], "longer than the pulled length"),
+        (["--weld", "thermite"], "unknown weld process"),
+        (["--weld", "30"], "no unit"),
+        (["--rail", "60X9"], "unknown rail profile"),
+        (["--pull", "sideways"], "accepted"),
+    ],
+)
+def test_bad_input_exit_2(run_cli, args, words):
+    res = run_cli(*BASE, *args)
+    assert res.exit_code == 2, res.output
+    assert words in res.output
+    assert "Traceback" not in res.output
+
+
+def test_temperature_without_unit_in_a_file(run_cli, tmp_path):
+    job = tmp_path / "job.toml"
+    job.write_text('[destress]\nrail = "60E1"\nlength = "400 m"\nrail_temp = "15"\ntarget = "27 degC"\n',
+                   encoding="utf-8")
+    res = run_cli("destress", "--job", job)
+    assert res.exit_code == 2 and "Traceback" not in res.output
+    assert "rail_temp" in res.output and "has no unit" in res.output
