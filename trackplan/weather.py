@@ -229,6 +229,10 @@ class _Quantity:
     hi: float
 
 
+def _si_label(q: "_Quantity") -> str:
+    return {"percent": "%", "fraction": "(fraction)"}.get(q.kind) or units.SI_UNIT[q.kind]
+
+
 _AIR = _Quantity("air_temperature_C", "temperature", "hourly", -90.0, 65.0)
 _GHI = _Quantity("ghi_W_m2", "irradiance", "hourly", -50.0, 1600.0)
 _DNI = _Quantity("dni_W_m2", "irradiance", "hourly", -50.0, 1400.0)
@@ -365,6 +369,32 @@ def _readers():
 
 
 SOURCE_FORMATS = ("trackplan-csv", "tmy3", "epw", "ghcn-daily-csv")
+
+
+#: Sample climates shipped as package data: key -> file name (synthetic, fictional stations;
+#: see climate_samples/README.md).
+SAMPLE_FILES = {
+    "kestrel_plains": "kestrel_plains_hourly.csv.gz",
+    "gullhaven_quay": "gullhaven_quay_hourly.csv.gz",
+    "dunmere_sands": "dunmere_sands_daily.csv.gz",
+}
+
+
+def sample_records() -> dict[str, Path]:
+    """Paths of the synthetic sample climates installed with the package.
+
+    Returns
+    -------
+    dict
+        Key (``kestrel_plains``: hot continental, hourly; ``gullhaven_quay``:
+        mild maritime, southern hemisphere, hourly; ``dunmere_sands``: hot
+        arid, daily max/min) -> path of the ``.csv.gz`` file, readable with
+        :func:`read_record`.
+    """
+    from importlib.resources import files
+
+    base = files("trackplan") / "data" / "climate"
+    return {k: Path(str(base / name)) for k, name in SAMPLE_FILES.items()}
 
 
 def read_record(path, *, where: str | None = None) -> tuple[pd.DataFrame, dict]:
@@ -849,13 +879,13 @@ def _check_values(data: pd.DataFrame, meta: dict, lines, used: dict, ctx: _Ctx) 
         hint = _unit_hint(q, unit, raw[valid], x[valid])
         if n_out and (n_out >= max(3, 0.01 * n)) and hint:
             raise InputError(
-                f"{n_out} of {n} values are outside {q.lo:g}..{q.hi:g} {units.SI_UNIT.get(q.kind, '')} "
+                f"{n_out} of {n} values are outside {q.lo:g}..{q.hi:g} {_si_label(q)} "
                 f"in the stated unit [{unit}] ({_lines_text(lines, out, raw)}); {hint}",
                 ctx.at(None, repr(h)),
             )
         if n_out:
             ctx.warn(
-                f"{n_out} impossible value(s) in column {h!r} (outside {q.lo:g}..{q.hi:g} in SI: "
+                f"{n_out} impossible value(s) in column {h!r} (outside {q.lo:g}..{q.hi:g} {_si_label(q)}; "
                 f"{_lines_text(lines, out, raw)}); treated as missing"
                 + (f"; {hint}" if hint else ""),
             )
@@ -1217,12 +1247,12 @@ def _read_tmy3(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
         solar_position_shift_min=-30.0,
     )
     _check_latlon(meta, ctx, 1)
-    months = raw0.index.month.to_numpy()
-    yrs = raw0.index.year.to_numpy()
-    src = {}
-    for mo, yr in zip(months[:-1], yrs[:-1]):
-        src.setdefault(int(mo), int(yr))
-    meta["source_years"] = src
+    # month -> source year, from the file's own date column (MM/DD/YYYY)
+    dates = raw0["Date (MM/DD/YYYY)"].astype(str)
+    mo = dates.str[:2].astype(int).to_numpy()
+    yr = dates.str[-4:].astype(int).to_numpy()
+    first = np.unique(mo, return_index=True)[1]
+    meta["source_years"] = {int(mo[i]): int(yr[i]) for i in first}
     meta["units_in_file"] = {"air_temperature_C": "degC", "ghi_W_m2": "W/m**2", "dni_W_m2": "W/m**2",
                              "dhi_W_m2": "W/m**2", "wind_speed_m_s": "m/s", "relative_humidity_pct": "%"}
     data = _typical_common(raw, _TMY3_MAP, raw.get("TotCld (tenths)"), meta, ctx,
@@ -1263,10 +1293,9 @@ def _read_epw(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
         solar_position_shift_min=-30.0,
     )
     _check_latlon(meta, ctx, 1)
-    src = {}
-    for mo, yr in zip(raw0["month"].to_numpy(), raw0["year"].to_numpy()):
-        src.setdefault(int(mo), int(yr))
-    meta["source_years"] = src
+    mo, yr = raw0["month"].to_numpy(), raw0["year"].to_numpy()
+    first = np.unique(mo, return_index=True)[1]
+    meta["source_years"] = {int(mo[i]): int(yr[i]) for i in first}
     meta["units_in_file"] = {"air_temperature_C": "degC", "ghi_W_m2": "W/m**2", "dni_W_m2": "W/m**2",
                              "dhi_W_m2": "W/m**2", "wind_speed_m_s": "m/s", "relative_humidity_pct": "%"}
     # pvlib labels EPW hour h with h-1 (start of the hour); move to the end of the hour.
