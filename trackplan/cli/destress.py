@@ -150,7 +150,11 @@ def destress_cmd(
         None, "--opening", help="Repair, instead of --removed: opening measured between the freed rail ends at the rail temperature."
     ),
     weld: Optional[str] = typer.Option(
-        None, "--weld", help="aluminothermic (25 mm gap), aluminothermic-wide (75 mm), flash-butt (35 mm consumed), or a value per weld with its unit: '30 mm' gap, '-35 mm' consumed. Default aluminothermic."
+        None, "--weld", help=", ".join(
+            f"{w.name} ({abs(w.allowance_m) * 1e3:g} mm {'gap' if w.allowance_m >= 0 else 'consumed'})"
+            for w in destressing.weld_presets().values()
+        ) + " (values from memory: confirm them), or a value per weld with its unit: '30 mm' gap, '-35 mm' consumed. "
+        "Default aluminothermic."
     ),
     marks: Optional[str] = typer.Option(None, "--marks", help="Reference mark spacing, e.g. '50 m' (default 50 m)."),
     pull: Optional[str] = typer.Option(None, "--pull", help="end (from one end) or centre (both halves towards a central cut). Default end; centre for repair."),
