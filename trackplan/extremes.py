@@ -109,34 +109,43 @@ def annual_extremes(daily, typical_year: bool = False, years=None):
         row = [label, d.rail_max_C.max(), d.rail_min_C.min(), d.air_max_C.max(), d.air_min_C.min(), int(ok.sum())]
         return pd.DataFrame([row], columns=out_cols), warnings
 
-    year = idx.year.to_numpy()
-    month = idx.month.to_numpy()
-    frame = pd.DataFrame(
-        {"year": year, "month": month, "ok": ok, **{c: daily[c].to_numpy(float) for c in cols}}
-    )
-    # days with data per month against calendar days
-    per_month = frame.groupby(["year", "month"])["ok"].sum()
-    rows = []
+    year = idx.year.to_numpy().astype(np.int64)
+    month = idx.month.to_numpy().astype(np.int64)
+    y0 = int(year.min())
+    ny = int(year.max()) - y0 + 1
+    yi = year - y0
+    got = np.bincount(yi[ok] * 12 + month[ok] - 1, minlength=ny * 12).reshape(ny, 12).astype(float)
+    first = (np.datetime64(f"{y0:04d}-01", "M") + np.arange(ny * 12 + 1)).astype("datetime64[D]")
+    dim = np.diff(first).astype(float).reshape(ny, 12)
+    cover = got.sum(axis=1) / dim.sum(axis=1)
+    mcover = (got / dim).min(axis=1)
+    present = np.bincount(yi, minlength=ny) > 0
+    vals = {}
+    for c, fn, init in (("rail_max_C", np.maximum, -np.inf), ("rail_min_C", np.minimum, np.inf),
+                        ("air_max_C", np.maximum, -np.inf), ("air_min_C", np.minimum, np.inf)):
+        v = daily[c].to_numpy(float)
+        use = ok & np.isfinite(v)
+        acc = np.full(ny, init)
+        fn.at(acc, yi[use], v[use])
+        vals[c] = acc
+    days = np.bincount(yi[ok], minlength=ny)
     allowed = None if years is None else {int(y) for y in years}
-    for y in sorted(set(year.tolist())):
-        y = int(y)
-        n_days = 366 if pd.Timestamp(y, 12, 31).day_of_year == 366 else 365
-        got = np.array([per_month.get((y, m), 0) for m in range(1, 13)], dtype=float)
-        dim = np.array([pd.Timestamp(y, m, 1).days_in_month for m in range(1, 13)], dtype=float)
-        cover = got.sum() / n_days
-        mcover = (got / dim).min()
+    rows = []
+    for k in range(ny):
+        if not present[k]:
+            continue
+        y = y0 + k
         if allowed is not None and y not in allowed:
             warnings.append(f"year {y} left out: the record is not complete enough in that year")
             continue
-        if cover < YEAR_MIN_COVERAGE or mcover < MONTH_MIN_COVERAGE:
+        if cover[k] < YEAR_MIN_COVERAGE or mcover[k] < MONTH_MIN_COVERAGE:
             warnings.append(
-                f"year {y} left out: {cover:.0%} of its days have data (need {YEAR_MIN_COVERAGE:.0%}, "
-                f"and {MONTH_MIN_COVERAGE:.0%} of every month; poorest month {mcover:.0%})"
+                f"year {y} left out: {cover[k]:.0%} of its days have data (need {YEAR_MIN_COVERAGE:.0%}, "
+                f"and {MONTH_MIN_COVERAGE:.0%} of every month; poorest month {mcover[k]:.0%})"
             )
             continue
-        sel = (year == y) & ok
-        f = frame[sel]
-        rows.append([y, f.rail_max_C.max(), f.rail_min_C.min(), f.air_max_C.max(), f.air_min_C.min(), int(sel.sum())])
+        rows.append([y, vals["rail_max_C"][k], vals["rail_min_C"][k], vals["air_max_C"][k],
+                     vals["air_min_C"][k], int(days[k])])
     return pd.DataFrame(rows, columns=out_cols), warnings
 
 

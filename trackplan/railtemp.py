@@ -496,22 +496,50 @@ def _coefficients(
     return _assemble(_sky(air_C, ghi, dni, dhi, wind10, elev, az, params), geometry, site, params)
 
 
-def _steady(ta, c: _Coeffs, iterations: int = 3):
+def _steady(ta, c: _Coeffs, iterations: int = 2):
     """Newton solve of ``q - g_c (T - Ta) - g_r (T**4 - Te**4) = 0`` for ``T`` [K].
 
-    ``ta`` is the air temperature [K]. Returns ``(T, dLoss/dT)``; the residual
-    is monotone and convex in ``T``, so Newton from the balance linearised at
-    the air temperature converges in a few steps (checked against brentq in
-    the tests).
+    ``ta`` is the air temperature [K]. Returns ``(T, dLoss/dT)``. The residual
+    is monotone and concave in ``T``, so Newton's method from the balance
+    linearised at the air temperature converges fast: two steps leave less
+    than 1e-5 K over air from -40 to 50 degC, sun to 1100 W/m**2 and wind to
+    25 m/s (three steps: 1e-13 K; checked against brentq in the tests).
+    Written with in-place operations: it runs on every step of 30-year records
+    for every section.
     """
-    gc, gr, q, te4 = c.g_conv_W_per_m_K, c.g_rad_W_per_m_K4, c.q_W_per_m, c.t_env4_K4
-    ta2 = ta * ta
-    T = ta + (q - gr * (ta2 * ta2 - te4)) / (gc + (4 * gr) * ta2 * ta)
+    gc, q, te4 = c.g_conv_W_per_m_K, c.q_W_per_m, c.t_env4_K4
+    gr = c.g_rad_W_per_m_K4
+    gr4 = 4.0 * gr
+    # start: linearised at the air temperature
+    t2 = ta * ta
+    f = t2 * t2
+    f -= te4
+    f *= -gr
+    f += q
+    k = t2 * ta
+    k *= gr4
+    k += gc
+    T = f / k
+    T += ta
     for _ in range(iterations):
-        T2 = T * T
-        f = q - gc * (T - ta) - gr * (T2 * T2 - te4)
-        T = T + f / (gc + (4 * gr) * T2 * T)
-    return T, gc + (4 * gr) * T * T * T
+        np.multiply(T, T, out=t2)
+        np.multiply(t2, t2, out=f)
+        f -= te4
+        f *= -gr
+        f += q
+        np.subtract(T, ta, out=k)
+        k *= gc
+        f -= k  # residual
+        np.multiply(t2, T, out=k)
+        k *= gr4
+        k += gc
+        f /= k
+        T += f
+    np.multiply(T, T, out=t2)
+    t2 *= T
+    t2 *= gr4
+    t2 += gc
+    return T, t2
 
 
 def steady_rail_temperature(
@@ -1007,29 +1035,35 @@ def rail_temperature_hourly(df, meta: dict, profile: RailProfile, site: RailSite
 
 
 def _daily_from_hourly(prep: PreparedRecord, rail_C: np.ndarray, min_fraction: float = 0.75):
-    """Daily max/min of rail and air temperature; days with too few samples are NaN."""
+    """Daily max/min of rail and air temperature; days with too few samples are NaN.
+
+    The air extremes and the sample counts do not depend on the rail and are
+    computed once per prepared record.
+    """
     import pandas as pd
 
     starts = prep.day_starts
-    air = prep.air_C
-    ok = np.isfinite(rail_C) & np.isfinite(air)
-    counts = np.add.reduceat(ok.astype(float), starts)
-
-    def red(fn, x, fill):
-        return fn.reduceat(np.where(ok, x, fill), starts)
-
-    out = pd.DataFrame(
-        {
-            "rail_max_C": red(np.maximum, rail_C, -np.inf),
-            "rail_min_C": red(np.minimum, rail_C, np.inf),
-            "air_max_C": red(np.maximum, air, -np.inf),
-            "air_min_C": red(np.minimum, air, np.inf),
-        },
-        index=prep.dates,
-    )
-    short = counts < min_fraction * prep.samples_per_day
-    out.loc[short, :] = np.nan
-    return out, int(short.sum())
+    cached = prep._skies.get("daily_air")
+    ok = np.isfinite(rail_C)
+    if cached is None or not np.array_equal(cached[0], ok):
+        air = prep.air_C
+        counts = np.add.reduceat(ok.astype(float), starts)
+        air_max = np.maximum.reduceat(np.where(ok, air, -np.inf), starts)
+        air_min = np.minimum.reduceat(np.where(ok, air, np.inf), starts)
+        short = counts < min_fraction * prep.samples_per_day
+        cached = (ok, short, air_max, air_min)
+        prep._skies["daily_air"] = cached
+    _, short, air_max, air_min = cached
+    if ok.all():
+        rmax = np.maximum.reduceat(rail_C, starts)
+        rmin = np.minimum.reduceat(rail_C, starts)
+    else:
+        rmax = np.maximum.reduceat(np.where(ok, rail_C, -np.inf), starts)
+        rmin = np.minimum.reduceat(np.where(ok, rail_C, np.inf), starts)
+    cols = {"rail_max_C": rmax, "rail_min_C": rmin, "air_max_C": air_max.copy(), "air_min_C": air_min.copy()}
+    for v in cols.values():
+        v[short] = np.nan
+    return pd.DataFrame(cols, index=prep.dates), int(short.sum())
 
 
 def _heat_balance_daily(df, meta, profile, site, params, prepared):
