@@ -19,19 +19,23 @@ from trackplan.errors import InputError
 def prepare_out_dir(out: str | Path, inputs: Iterable[str | Path] = ()) -> Path:
     """Create ``out`` (and parents) and return it as a Path.
 
+    ``inputs`` are the run's input files: refusing to write over them is done
+    file by file by :func:`write_atomic`; here a folder that *is* an input is refused.
+
     Raises
     ------
     InputError
         ``out`` exists and is not a folder, or cannot be created.
     """
     out = Path(out)
+    if out.resolve() in {Path(p).resolve() for p in inputs}:
+        raise InputError("is an input file; give a folder for the output files", f"--out {out}")
     if out.exists() and not out.is_dir():
         raise InputError("exists and is not a folder; give a folder for the output files", f"--out {out}")
     try:
         out.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
         raise InputError(f"cannot create the folder ({exc.strerror})", f"--out {out}") from None
-    out._trackplan_inputs = {Path(p).resolve() for p in inputs}  # type: ignore[attr-defined]
     return out
 
 

@@ -321,12 +321,7 @@ def destress_cmd(
 
 def _out_dir(reports, out: Path, inputs) -> Path:
     """The output folder, created by :func:`trackplan.reports.prepare_out_dir`."""
-    try:
-        return reports.prepare_out_dir(out, inputs)
-    except AttributeError:
-        # prepare_out_dir creates the folder, then sets an attribute on the Path,
-        # which pathlib's __slots__ refuse; the inputs are guarded by write_text.
-        return Path(out)
+    return reports.prepare_out_dir(out, inputs)
 
 
 def _mm(v_m: float | None, s: str) -> str:
