@@ -343,6 +343,23 @@ def test_longitude_sign_mistake_warns(tmp_path):
     assert any("from solar noon" in w for w in meta["warnings"])
 
 
+def test_daylight_saving_clock_detected(tmp_path):
+    # One year of the sample written as local clock time with daylight saving time
+    # (America/Chicago: UTC-5 from March to November, IANA tz database), without offsets.
+    data, _ = read_record(ROOT / "trackplan" / "data" / "climate" / "kestrel_plains_hourly.csv.gz")
+    y = data.loc["2020"]
+    y = y.set_axis(y.index.tz_convert("America/Chicago").tz_localize(None))
+    y = y[~y.index.duplicated()]  # the repeated autumn hour would be refused as a duplicate
+    rows = "\n".join(f"{t:%Y-%m-%dT%H:%M},{a:.1f},{g:.0f}" for t, a, g in
+                     zip(y.index, y.air_temperature_C, y.ghi_W_m2))
+    text = ("# latitude: 41.2\n# longitude: -97.4\n# timezone: America/Chicago\n"
+            f"time,air_temperature [degC],ghi [W/m**2]\n{rows}\n")
+    _, meta = read_record(write(tmp_path, text))
+    w = [x for x in meta["warnings"] if "daylight saving" in x]
+    assert len(w) == 1 and "[3, 4, 5, 6, 7, 8, 9, 10]" in w[0]  # DST 8 March - 1 November 2020
+    assert any("1 timestamp(s) missing from the file, first 2020-03-08 02:00" in x for x in meta["warnings"])
+
+
 # --------------------------------------------------------------------------
 # Gaps and years
 # --------------------------------------------------------------------------

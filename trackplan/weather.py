@@ -839,7 +839,9 @@ def _check_order(index: pd.DatetimeIndex, lines, ctx: _Ctx) -> None:
     if (d == 0).any():
         i = int(np.argmax(d == 0)) + 1
         raise InputError(
-            f"duplicate timestamp {index[i]} (also on line {int(lines[i - 1])}); give each time once",
+            f"duplicate timestamp {index[i]} (also on line {int(lines[i - 1])}); give each time once "
+            "(a clock on daylight saving time repeats an hour in autumn: write standard time, "
+            "or each timestamp with its offset)",
             ctx.at(int(lines[i]), "1"),
         )
     if (d < 0).any():
@@ -1060,11 +1062,13 @@ def _finish(data: pd.DataFrame, meta: dict, ctx: _Ctx, step_kind: str) -> pd.Dat
                  "rail temperature is resolved poorly")
     meta["time_step"] = step_kind
     meta["time_step_s"] = step_s
-    n_before = len(data)
+    before = data.index
     data = _regularise(data, step, ctx)
-    added = len(data) - n_before
+    added = len(data) - len(before)
     if added > 0:
-        ctx.warn(f"{added} timestamp(s) missing from the file (rows of NaN added so the steps are regular)")
+        new = data.index[~data.index.isin(before)]
+        ctx.warn(f"{added} {'timestamp' if step_kind == 'hourly' else 'date'}(s) missing from the file, "
+                 f"first {new[0]} (rows of NaN added so the steps are regular)")
 
     main = ["air_temperature_C"] if step_kind == "hourly" else ["tmax_C", "tmin_C"]
     main_miss0 = data[main].isna().any(axis=1).to_numpy()
@@ -1179,7 +1183,7 @@ def _check_solar_timing(data: pd.DataFrame, meta: dict, ctx: _Ctx) -> None:
             "check the time zone, the sign of the longitude (east positive) and the timestamp convention"
         )
     elif have.sum() >= 10 and float(diff.max() - diff.min()) > 0.7:
-        months = [i + 1 for i, d in zip(np.flatnonzero(have), diff) if d - diff.min() > 0.5]
+        months = [int(i) + 1 for i, d in zip(np.flatnonzero(have), diff) if d - diff.min() > 0.5]
         ctx.warn(
             f"irradiance peaks about {float(diff.max() - diff.min()):.1f} h later in months {months} than in "
             "the others; the clock may follow daylight saving time (timestamps must be standard time or "
