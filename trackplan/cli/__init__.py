@@ -17,6 +17,7 @@ from trackplan.cli.common import app
 COMMAND_MODULES = [
     "profiles",
     "force",
+    "railtemp",
     "destress",
     "target",
     "check",
