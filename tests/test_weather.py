@@ -295,6 +295,11 @@ def test_unordered_timestamps(tmp_path):
     assert "line 5 column 1" in msg and "out of order" in msg
 
 
+def test_duplicate_date_in_daily_record(tmp_path):
+    msg = _err(tmp_path, "date,tmax [degC],tmin [degC]\n2020-01-01,1,0\n2020-01-01,2,1\n")
+    assert "line 3 column 1" in msg and "duplicate date 2020-01-01 (also on line 2)" in msg
+
+
 def test_bad_timestamp(tmp_path):
     text = "# timezone: UTC\ntime,air_temperature [degC]\n2020-01-01T00:00,1\n2020-13-45T01:00,2\n"
     msg = _err(tmp_path, text)

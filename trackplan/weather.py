@@ -358,8 +358,8 @@ def _sniff(text: str) -> str:
     return "trackplan-csv"
 
 
-#: Readers by ``source_format`` (the dispatch table of :func:`read_record`).
 def _readers():
+    """Readers by ``source_format`` (the dispatch table of :func:`read_record`)."""
     return {
         "trackplan-csv": _read_trackplan_csv,
         "tmy3": _read_tmy3,
@@ -836,19 +836,25 @@ def _parse_dates(tcol: pd.Series, lines, ctx: _Ctx) -> pd.DatetimeIndex:
 def _check_order(index: pd.DatetimeIndex, lines, ctx: _Ctx) -> None:
     v = index.asi8
     d = np.diff(v)
+    daily = index.name == "date"
+    what = "date" if daily else "timestamp"
+
+    def show(t):
+        return f"{t:%Y-%m-%d}" if daily else str(t)
+
     if (d == 0).any():
         i = int(np.argmax(d == 0)) + 1
         raise InputError(
-            f"duplicate timestamp {index[i]} (also on line {int(lines[i - 1])}); give each time once "
-            "(a clock on daylight saving time repeats an hour in autumn: write standard time, "
-            "or each timestamp with its offset)",
+            f"duplicate {what} {show(index[i])} (also on line {int(lines[i - 1])}); give each {what} once"
+            + ("" if daily else " (a clock on daylight saving time repeats an hour in autumn: write "
+               "standard time, or each timestamp with its offset)"),
             ctx.at(int(lines[i]), "1"),
         )
     if (d < 0).any():
         i = int(np.argmax(d < 0)) + 1
         raise InputError(
-            f"timestamps out of order: {index[i]} comes after {index[i - 1]} (line {int(lines[i - 1])}); "
-            "sort the record by time",
+            f"{what}s out of order: {show(index[i])} comes after {show(index[i - 1])} "
+            f"(line {int(lines[i - 1])}); sort the record by {'date' if daily else 'time'}",
             ctx.at(int(lines[i]), "1"),
         )
 
@@ -943,13 +949,11 @@ def _unit_hint(q: _Quantity, unit: str, raw: np.ndarray, x: np.ndarray) -> str:
             return (f"mean wind speed {np.nanmean(x):.1f} m/s is very high; is the unit km/h, mph or knot?")
         return ""
     if q.kind in ("percent", "fraction"):
-        hi = q.hi if q.kind == "fraction" else 100.0
         mx = float(np.nanmax(x))
         if q.kind == "fraction" and mx > 1.0 and np.nanmax(raw) <= 100.0:
             return "these look like percent; write the unit as [%]"
         if q.kind == "percent" and mx <= 1.0 and len(x) > 24 and u in ("%", "percent", "pct"):
             return f"the largest value is {mx:g} %; these look like a 0-1 fraction; write the unit as [1]"
-        del hi
         return ""
     return ""
 
