@@ -55,9 +55,17 @@ UNITS_OPTION = typer.Option(
 JSON_OPTION = typer.Option(False, "--json", help="Print one JSON object (SI units, unit in every key) and nothing else.")
 
 
+def print_error(exc: Exception) -> None:
+    """Print an input error on stderr (the message is plain text, never rich markup:
+    units such as ``[degC]`` must survive)."""
+    from rich.text import Text
+
+    err_console.print(Text("error: ", style="bold red") + Text(str(exc)), highlight=False, soft_wrap=True)
+
+
 def fail(exc: InputError) -> None:
     """Print an input error and exit with code 2."""
-    err_console.print(f"[bold red]error:[/] {exc}", highlight=False, soft_wrap=True)
+    print_error(exc)
     raise typer.Exit(2)
 
 

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import typer
 
-from trackplan.cli.common import err_console, progress_enabled
+from trackplan.cli.common import err_console, print_error, progress_enabled
 from trackplan.errors import InputError
 
 SECTIONS_ARG = typer.Argument(..., help="Section file (TOML): [defaults] and one [sections.ID] table per welded section.")
@@ -47,7 +47,7 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
 def report_problems(problems: list[InputError]) -> None:
     """Print each bad section on stderr (the good ones have been reported)."""
     for p in problems:
-        err_console.print(f"[bold red]error:[/] {p}", highlight=False, soft_wrap=True)
+        print_error(p)
     if problems:
         err_console.print(f"{len(problems)} section(s) could not be assessed; the others are above.",
                           highlight=False)
