@@ -592,10 +592,11 @@ def steady_rail_temperature(
     geometry = rail_geometry(profile, params)
     arrs = [np.asarray(v, dtype=float) for v in (air_temperature_C, ghi_W_m2, dni_W_m2, dhi_W_m2,
                                                  wind_speed_m_s, sun_elevation_deg, sun_azimuth_deg)]
-    air, ghi, dni, dhi, wind, elev, az = np.broadcast_arrays(*arrs)
+    shape = np.broadcast_shapes(*(a.shape for a in arrs))
+    air, ghi, dni, dhi, wind, elev, az = (np.broadcast_to(a, shape).reshape(-1).copy() for a in arrs)
     c = _coefficients(air, ghi, dni, dhi, wind, elev, az, geometry, site, params)
     T, _ = _steady(air + _K0, c)
-    out = T - _K0
+    out = (T - _K0).reshape(shape)
     return float(out) if out.ndim == 0 else out
 
 
