@@ -21,6 +21,7 @@ COMMAND_MODULES = [
     "destress",
     "target",
     "check",
+    "screen",
     "demo",
 ]
 
