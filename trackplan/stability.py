@@ -753,6 +753,24 @@ def _newton(M: _Model, q: np.ndarray, T: float, c: int, maxit: int = 12):
     return None
 
 
+def _initial_tangent(M: _Model):
+    """Load-control tangent ``dq/dT = -K^-1 b`` at the unstressed state; (control DOF, dq/dT)."""
+    from scipy.linalg.lapack import dgbsv
+
+    q = np.zeros(M.n)
+    R, b, ab, _ = M.assemble(q, 0.0)
+    ab[M.zero_rows, M.zero_cols] = 0.0
+    ab[2 * M.bw, M.fixed] = 1.0
+    rhs = -b.copy()
+    rhs[M.fixed] = 0.0
+    _, _, sol, info = dgbsv(M.bw, M.bw, ab, rhs[:, None])
+    tan = sol[:, 0] if info == 0 else np.zeros(M.n)
+    if not np.any(tan[M.wnodes]):  # straight perfect track: no lateral motion before buckling
+        return 0, np.eye(1, M.n, 0)[0]
+    c = int(M.wnodes[np.argmax(np.abs(tan[M.wnodes]))])
+    return c, tan
+
+
 def _positive_definite(M: _Model, q: np.ndarray, T: float) -> bool:
     """Is the tangent stiffness (load control) positive definite? (stability of the state)"""
     from scipy.linalg import cholesky_banded
@@ -811,22 +829,33 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
             Tp = T_prev + scale * (T_prev - T_pp)
             target = q_prev[c] + math.copysign(step, dqs[c])
         else:
-            c = 0
-            qp = q_prev.copy()
-            Tp = T_prev
-            target = step
+            # first step: control the DOF that moves most along the initial (load-control) tangent
+            c, tan = _initial_tangent(M)
+            scale = step / max(abs(tan[c]), 1e-15)
+            qp = q_prev + scale * tan
+            Tp = T_prev + scale
+            target = qp[c]
         qp[c] = target
         res = _newton(M, qp, Tp, c)
         ok = res is not None
         if ok:
             qn, Tn, its = res
             dw = np.max(np.abs(qn[M.wnodes] - q_prev[M.wnodes]))
-            if abs(Tn - T_prev) > 2.0 * dT_cap or dw > 3.0 * step or not math.isfinite(Tn):
-                ok = False
+            if abs(Tn - T_prev) > 2.0 * dT_cap or dw > 3.0 * step or not math.isfinite(Tn) or Tn <= 0.0:
+                ok = False  # too far, or a buckled state without compression: not on the path
+            elif len(path.states) >= 2:
+                # no reversal: the path must go on in the direction it came from
+                d_new = qn[M.wnodes] - q_prev[M.wnodes]
+                d_old = q_prev[M.wnodes] - path.states[-2][0][M.wnodes]
+                if float(d_new @ d_old) <= 0.0:
+                    ok = False
         if not ok:
             step *= 0.4
             if step < step_min and trough_seen and T_prev > Tmin_after + 0.3:
                 path.stop = "path following stopped after the trough"
+                return path
+            if step < step_min and not peak_seen and path.disp[-1] >= 10 * DISPLACEMENT_LIMIT_M:
+                path.stop = "path following stopped on a rising curve"
                 return path
             if step < step_min:
                 raise StabilityError(
@@ -837,6 +866,19 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
             continue
         wabs = np.abs(qn[M.wnodes])
         wmax = float(wabs.max())
+        if wmax < 0.7 * max(path.disp):
+            # the path turns back toward small displacements (a fold of the whole buckle):
+            # what follows is not needed and is not trusted
+            if trough_seen and T_prev > Tmin_after + 0.3:
+                path.stop = "path following stopped after the trough"
+                return path
+            if not peak_seen and path.disp[-1] >= 10 * DISPLACEMENT_LIMIT_M:
+                path.stop = "path following stopped on a rising curve"
+                return path
+            raise StabilityError(
+                f"the equilibrium path turns back at a rise of {T_prev:.1f} K and a lateral displacement of "
+                f"{path.disp[-1] * 1e3:.1f} mm before a lower critical rise was found; check the parameters",
+                "stability analysis")
         path.disp.append(wmax)
         path.rise.append(float(Tn))
         path.s.append(path.s[-1] + dw)
@@ -1214,8 +1256,12 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
             upper = float(T.max())
             d_up = float(D[int(np.argmax(T))])
             if path.stop == "rise limit":
+                upper = MAX_RISE_K
                 notes.append(f"no buckling up to a rise of {MAX_RISE_K:g} K (the limit of the analysis); "
                              "the upper critical rise is given as that limit")
+            elif path.stop == "path following stopped on a rising curve":
+                notes.append(f"the path could not be followed beyond {D[-1] * 1e3:.0f} mm (rise {T[-1]:.1f} K); "
+                             "no peak up to there")
             elif path.stop == "displacement limit":
                 notes.append(f"no peak up to a lateral displacement of {MAX_DISPLACEMENT_M * 1e3:.0f} mm; "
                              "the upper critical rise is the rise at that displacement")
@@ -1229,7 +1275,7 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
         t_bif = bifurcation_rise(inp, element_length_m, half_length_m)
         notes.append(f"perfect track: the upper critical rise is the bifurcation rise {t_bif:.1f} K of the straight "
                      f"track; the curve is traced with a {TRIGGER_MISALIGNMENT_M * 1e3:g} mm trigger misalignment")
-        upper = min(t_bif, MAX_RISE_K) if t_bif > MAX_RISE_K else t_bif
+        upper = t_bif
         d_up = 0.0
     elif perfect:
         notes.append(f"no misalignment given on a curve: the curve is traced with a {TRIGGER_MISALIGNMENT_M * 1e3:g} mm "
