@@ -355,6 +355,7 @@ def season_lengths(years, months: tuple[int, int] | None) -> np.ndarray:
     y, m = _ymd(cal)
     sel = month_selection(m, months)
     sy = season_year(y, m, months)[sel]
+    sy = sy[sy >= lo]  # January-February of the first year belong to the season before
     counts = np.bincount(sy - lo, minlength=hi - lo + 2)
     return counts[years - lo]
 
