@@ -18,6 +18,7 @@ COMMAND_MODULES = [
     "profiles",
     "force",
     "railtemp",
+    "stability",
     "destress",
     "target",
     "check",

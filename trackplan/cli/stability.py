@@ -1,0 +1,207 @@
+"""``trackplan stability``: equilibrium curve, critical rises and allowable rise of a track."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Optional
+
+import typer
+from rich.table import Table
+
+from trackplan import CAUTION, rails, thermal, units
+from trackplan.cli.common import (
+    JSON_OPTION,
+    UNITS_OPTION,
+    UnitSystem,
+    command,
+    console,
+    emit_json,
+    parse_option,
+    print_caution,
+    progress_enabled,
+)
+from trackplan.errors import InputError
+
+# Preset names for --help (read from the data file by trackplan.stability; listed here so that
+# --help needs no numpy). The command checks them against the presets.
+_SLEEPERS = "timber, steel, concrete"
+_BALLAST = "consolidated, partial, disturbed"
+_SHOULDER = "full, reduced"
+
+
+def _positive_option(text, kind, option, system, allow_zero=False):
+    value, echo = parse_option(text, kind, option, system, required=False)
+    if value is not None and (value < 0 or (value == 0 and not allow_zero)):
+        raise InputError(f"must be {'zero or ' if allow_zero else ''}positive, got {text!r}", option)
+    return value, echo
+
+
+def _plot(result, out: Path, system: str):
+    """PNG of the equilibrium curve with the critical points and the allowable rise."""
+    from trackplan import reports
+
+    reports.matplotlib_backend()
+    import matplotlib.pyplot as plt
+
+    d_unit = units.display_unit("short_length", system)
+    t_unit = units.display_unit("temperature_difference", system)
+    dx = [units.from_si(v, d_unit, "length") for v in result.curve_displacement_m]
+    ty = [units.from_si(v, t_unit, "temperature_difference") for v in result.curve_rise_K]
+    fig, ax = plt.subplots(figsize=(7, 4.5))
+    ax.plot(dx, ty, "-", color="tab:blue", lw=1.8, label="equilibrium curve")
+
+    def pt(d, t, label, style):
+        if t is None:
+            return
+        ax.plot([units.from_si(d or 0.0, d_unit, "length")], [units.from_si(t, t_unit, "temperature_difference")],
+                style, ms=8, label=label)
+
+    pt(result.upper_critical_displacement_m, result.upper_critical_rise_K,
+       f"upper critical {units.fmt(result.upper_critical_rise_K, 'temperature_difference', system)}", "v")
+    pt(result.lower_critical_displacement_m, result.lower_critical_rise_K,
+       None if result.lower_critical_rise_K is None else
+       f"lower critical {units.fmt(result.lower_critical_rise_K, 'temperature_difference', system)}", "^")
+    ax.axhline(units.from_si(result.allowable_rise_K, t_unit, "temperature_difference"), color="tab:green", ls="--",
+               label=f"allowable {units.fmt(result.allowable_rise_K, 'temperature_difference', system)}")
+    ax.set_xlabel(f"largest lateral displacement [{units.label(d_unit)}]")
+    ax.set_ylabel(f"rail temperature rise above neutral [{units.label(t_unit)}]")
+    ax.set_title(f"Track lateral stability ({result.response})")
+    ax.grid(alpha=0.3)
+    ax.set_xlim(left=0)
+    ax.set_ylim(bottom=0)
+    ax.legend(loc="best", fontsize=8)
+    return reports.save_figure(out / "stability_curve.png", fig)
+
+
+@command("stability")
+def stability_cmd(
+    rail: str = typer.Option(..., "--rail", help="Rail profile, e.g. 60E1 or 136RE (see `trackplan profiles`)."),
+    sleeper: str = typer.Option("concrete", "--sleeper", help=f"Sleeper type: {_SLEEPERS}."),
+    ballast: str = typer.Option("consolidated", "--ballast",
+                                help=f"Ballast state: {_BALLAST} (disturbed = after tamping or renewal)."),
+    shoulder: str = typer.Option("full", "--shoulder", help=f"Ballast shoulder: {_SHOULDER}."),
+    radius: Optional[str] = typer.Option(None, "--radius", help="Curve radius, e.g. '800 m' (100 m or more); omit for tangent track."),
+    misalignment: Optional[str] = typer.Option(None, "--misalignment", help="Initial misalignment amplitude, e.g. '20 mm' (default 20 mm; 0 = perfect track)."),
+    misalignment_length: Optional[str] = typer.Option(None, "--misalignment-length", help="Length of the misalignment, e.g. '10 m' (default 10 m)."),
+    peak_resistance: Optional[str] = typer.Option(None, "--peak-resistance", help="Override the peak lateral resistance per metre of track, e.g. '15 kN/m'."),
+    limit_resistance: Optional[str] = typer.Option(None, "--limit-resistance", help="Override the limit (residual) lateral resistance per metre of track, e.g. '10 kN/m'."),
+    peak_displacement: Optional[str] = typer.Option(None, "--peak-displacement", help="Override the lateral displacement at the peak, e.g. '4 mm'."),
+    longitudinal_resistance: Optional[str] = typer.Option(
+        None, "--longitudinal-resistance", help="Override the longitudinal resistance per rail, e.g. '8 kN/m', or 'rigid' for full restraint."),
+    lateral_stiffness: Optional[str] = typer.Option(
+        None, "--lateral-stiffness", help="Use a linear (Winkler) lateral foundation of this modulus instead of the peak/limit law, e.g. '2000 kN/m**2'."),
+    criterion: str = typer.Option("lower-critical", "--criterion", help="Allowable-rise criterion: lower-critical (default) or upper-quarter."),
+    profiles_file: Optional[Path] = typer.Option(None, "--profiles-file", help="TOML file with profiles of your own."),
+    out: Optional[Path] = typer.Option(None, "--out", help="Folder for the PNG of the curve (stability_curve.png) and the curve as CSV."),
+    system: UnitSystem = UNITS_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Lateral stability (buckling) of a track: equilibrium curve, critical rises, allowable rise.
+
+    A coupled axial-lateral beam model of the track panel on nonlinear ballast resistance,
+    with longitudinal resistance, curvature and an initial misalignment, traced through
+    snap-through. Gives the upper and lower critical rise above neutral temperature, the
+    response (snap-through or progressive) and the allowable rise under a stated criterion.
+
+    Example: trackplan stability --rail 60E1 --sleeper concrete --ballast consolidated --radius "800 m" --misalignment "20 mm"
+    """
+    from trackplan import stability as st
+
+    extra = rails.load_user_profiles(profiles_file) if profiles_file else None
+    profile = rails.get_profile(rail, extra)
+    steel = thermal.default_steel(profile.is_north_american)
+    s = system.value
+    over: dict = {}
+    echoes: dict = {}
+
+    def take(text, kind, option, field, allow_zero=False):
+        v, e = _positive_option(text, kind, option, s, allow_zero)
+        if v is not None:
+            over[field] = v
+            echoes[option] = e
+
+    if radius is not None:
+        take(radius, "length", "--radius", "radius_m")
+    take(misalignment, "length", "--misalignment", "misalignment_m", allow_zero=True)
+    take(misalignment_length, "length", "--misalignment-length", "misalignment_length_m")
+    take(peak_resistance, "force_per_length", "--peak-resistance", "peak_resistance_N_per_m")
+    take(limit_resistance, "force_per_length", "--limit-resistance", "limit_resistance_N_per_m", allow_zero=True)
+    take(peak_displacement, "length", "--peak-displacement", "peak_displacement_m")
+    take(lateral_stiffness, "stiffness_per_area", "--lateral-stiffness", "lateral_stiffness_N_per_m2")
+    if longitudinal_resistance is not None:
+        if longitudinal_resistance.strip().lower() == "rigid":
+            over["longitudinal_resistance_N_per_m"] = None
+            echoes["--longitudinal-resistance"] = "rigid"
+        else:
+            take(longitudinal_resistance, "force_per_length", "--longitudinal-resistance",
+                 "longitudinal_resistance_N_per_m")
+    if peak_resistance is not None and limit_resistance is None:
+        # keep the preset's limit/peak ratio when only the peak is given
+        p = st.get_preset(sleeper, ballast, shoulder)
+        over["limit_resistance_N_per_m"] = over["peak_resistance_N_per_m"] * (
+            p.limit_resistance_N_per_m / p.peak_resistance_N_per_m)
+    if criterion not in st.CRITERIA:
+        raise InputError(f"unknown criterion {criterion!r}; accepted: {', '.join(st.CRITERIA)}", "--criterion")
+    inp = st.track_parameters(profile, steel, sleeper, ballast, shoulder, **over)
+
+    if progress_enabled() and not as_json:
+        from rich.progress import Progress
+
+        with Progress(transient=True, console=console) as prog:
+            task = prog.add_task("tracing the equilibrium curve", total=1.0)
+            result = st.solve_equilibrium_curve(inp, criterion=criterion,
+                                                progress=lambda f: prog.update(task, completed=f))
+    else:
+        result = st.analyse_stability(inp, criterion)
+
+    files = []
+    if out is not None:
+        from trackplan import reports
+        import pandas as pd
+
+        out_dir = reports.prepare_out_dir(out, [profiles_file] if profiles_file else [])
+        files.append(_plot(result, out_dir, s))
+        frame = pd.DataFrame({"lateral_displacement_mm": result.curve_displacement_m * 1e3,
+                              "rise_K": result.curve_rise_K})
+        files.append(reports.write_csv(out_dir / "stability_curve.csv", frame))
+
+    if as_json:
+        data = {"rail": profile.name, "sleeper": sleeper, "ballast": ballast, "shoulder": shoulder}
+        data.update(result.as_json())
+        data["files"] = [str(f) for f in files]
+        data["caution"] = CAUTION
+        emit_json(data)
+        return
+
+    inp = result.inputs
+    tbl = Table(title=f"Lateral stability: {profile.name}, {sleeper} sleepers, {ballast} ballast, {shoulder} shoulder, "
+                      + ("tangent" if inp.radius_m is None else f"radius {units.fmt(inp.radius_m, 'length', s, 0)}"))
+    tbl.add_column("quantity")
+    tbl.add_column("value", justify="right")
+    td = "temperature_difference"
+    tbl.add_row("upper critical rise", units.fmt(result.upper_critical_rise_K, td, s))
+    tbl.add_row("lower critical rise", units.fmt(result.lower_critical_rise_K, td, s))
+    tbl.add_row("[bold]allowable rise[/]", f"[bold]{units.fmt(result.allowable_rise_K, td, s)}[/]")
+    tbl.add_row("response", result.response)
+    tbl.add_row("lateral EI (two rails)", f"{inp.EI_lateral_Nm2 / 1e3:.0f} kN·m²" if s == "si"
+                else f"{inp.EI_lateral_Nm2 / 4.4482216152605e3 / 0.3048**2:.0f} kip·ft²")
+    tbl.add_row("axial EA (two rails)", units.fmt(inp.EA_N, "force", s, 0))
+    if inp.lateral_stiffness_N_per_m2 is not None:
+        tbl.add_row("lateral foundation (linear)", units.fmt(inp.lateral_stiffness_N_per_m2, "stiffness_per_area", s, 0))
+    else:
+        tbl.add_row("peak / limit lateral resistance",
+                    f"{units.fmt(inp.peak_resistance_N_per_m, 'force_per_length', s)} / "
+                    f"{units.fmt(inp.limit_resistance_N_per_m, 'force_per_length', s)} at "
+                    f"{units.fmt(inp.peak_displacement_m, 'short_length', s)}")
+    tbl.add_row("longitudinal resistance per rail",
+                "rigid" if inp.longitudinal_resistance_N_per_m is None
+                else units.fmt(inp.longitudinal_resistance_N_per_m, "force_per_length", s))
+    tbl.add_row("misalignment", f"{units.fmt(inp.misalignment_m, 'short_length', s)} over "
+                                f"{units.fmt(inp.misalignment_length_m, 'length', s)}")
+    console.print(tbl)
+    console.print(f"Allowable rise: {result.criterion}.", highlight=False)
+    for n in result.notes:
+        console.print(f"[dim]note: {n}[/]", highlight=False)
+    for f in files:
+        console.print(f"wrote {f}", highlight=False)
+    print_caution()
