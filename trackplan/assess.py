@@ -157,7 +157,8 @@ class Assessor:
         dkey = (key, rp, self.distribution)
         if dkey not in self._design:
             design = extremes.design_extremes(daily, return_period_years=rp, distribution=self.distribution,
-                                              typical_year=bool(meta.get("typical_year")))
+                                              typical_year=bool(meta.get("typical_year")),
+                                              years=meta.get("years"))
             self._design[dkey] = (design, _hot_month(daily))
         design, month = self._design[dkey]
         warnings = list(meta.get("warnings", [])) + list(daily.attrs.get("warnings", [])) + list(design.warnings)
