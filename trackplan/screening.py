@@ -461,7 +461,7 @@ def annual_trend(annual: AnnualCounts, typical_year: bool = False) -> Trend:
     ok = annual.complete
     n = int(ok.sum())
     if typical_year:
-        return Trend(None, None, None, None, n, "typical-year record: no trend")
+        return Trend(None, None, None, None, n, "typical-year record (not a time series)")
     if n < MIN_TREND_YEARS:
         return Trend(None, None, None, None, n,
                      f"{n} complete year(s): a trend needs at least {MIN_TREND_YEARS}")

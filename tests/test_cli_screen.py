@@ -1,0 +1,267 @@
+"""``trackplan screen`` end to end.
+
+The real record is the TMY3 file that pvlib ships (723170TYA.CSV, Greensboro NC,
+from the US National Solar Radiation Database; Wilcox and Marion 2008, NREL/TP-581-43156).
+Expected counts are derived here independently of trackplan.screening: the daily
+rail maximum and minimum straight from trackplan.railtemp, the allowable and
+critical rises straight from trackplan.stability, and plain pandas comparisons
+with the level rules of the screening docstring.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+pvlib = pytest.importorskip("pvlib")
+
+TMY3 = Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
+DRIFT = 5.0
+TAMP_DATE, TAMP_DAYS = "1990-07-10", 20
+
+
+def _track():
+    from trackplan import rails, stability, thermal
+
+    p = rails.get_profile("60E1")
+    st = thermal.default_steel(False)
+    out = {}
+    for b in ("consolidated", "partial", "disturbed"):
+        inp = stability.track_parameters(p, st, "timber", b, "full", radius_m=500.0, misalignment_m=0.03,
+                                         misalignment_length_m=10.0)
+        res = stability.analyse_stability(inp)
+        crit = res.lower_critical_rise_K if res.lower_critical_rise_K is not None else res.upper_critical_rise_K
+        out[b] = (float(res.allowable_rise_K), float(crit), float(inp.longitudinal_resistance_N_per_m))
+    return p, st, out
+
+
+@pytest.fixture(scope="module")
+def greensboro():
+    """Daily rail extremes of the TMY3 record for a north-south track, and the track figures."""
+    from trackplan import railtemp, weather
+
+    df, meta = weather.read_record(TMY3)
+    p, st, track = _track()
+    site = railtemp.RailSite(latitude_deg=meta["latitude_deg"], longitude_deg=meta["longitude_deg"],
+                             elevation_m=meta["elevation_m"] or 0.0, track_azimuth_deg=0.0)
+    daily = railtemp.daily_rail_extremes(df, meta, p, site, "auto")
+    a_c, c_c, _ = track["consolidated"]
+    hottest = daily["rail_max_C"].sort_values(ascending=False)
+    # section A: the 5th hottest day reaches the critical rise; B 8 K warmer neutral, tamped in July; C cold-prone
+    tn_a = float(np.floor((hottest.iloc[4] - c_c + DRIFT) * 10) / 10)
+    neutrals = {"GB-A": tn_a, "GB-B": tn_a + 8.0, "GB-C": 35.0}
+    return daily, st, p, track, neutrals
+
+
+def _write_sections(path: Path, neutrals: dict, events: bool = True, extra: str = "") -> Path:
+    parts = [f"""
+[defaults]
+rail = "60E1"
+sleeper = "timber"
+ballast = "consolidated"
+radius = "500 m"
+misalignment = "30 mm"
+misalignment_length = "10 m"
+drift_allowance = "{DRIFT} K"
+gap_limit = "50 mm"
+tension_stress_limit = "160 MPa"
+track_azimuth = "0 deg"
+"""]
+    for sid, tn in neutrals.items():
+        parts.append(f"""
+[sections.{sid}]
+climate = "{TMY3.as_posix()}"
+neutral_temperature = "{tn:.1f} degC"
+neutral_date = 2020-06-01
+neutral_basis = "destressed"
+""")
+        if sid == "GB-B" and events:
+            parts.append(f"""
+[[sections.{sid}.events]]
+date = {TAMP_DATE}
+kind = "tamping"
+recovery_days = {TAMP_DAYS}
+""")
+    parts.append(extra)
+    path.write_text("".join(parts))
+    return path
+
+
+def _expected(daily, st, p, track, tn, tamped=False, months=None, warming=0.0):
+    """Counts by plain pandas comparisons (independent of trackplan.screening)."""
+    d = daily.copy()
+    if months is not None:
+        d = d[(d.index.month >= months[0]) & (d.index.month <= months[1])]
+    tmax, tmin = d["rail_max_C"] + warming, d["rail_min_C"] + warming
+    a_c, c_c, r = track["consolidated"]
+    allow = pd.Series(a_c, index=d.index)
+    crit = pd.Series(c_c, index=d.index)
+    if tamped:
+        x = (d.index - pd.Timestamp(TAMP_DATE)).days.to_numpy() / TAMP_DAYS
+        w = (x >= 0) & (x < 1)
+        states = ("disturbed", "partial", "consolidated")
+        allow[w] = np.interp(x[w], [0, 0.5, 1], [track[s][0] for s in states])
+        crit[w] = np.interp(x[w], [0, 0.5, 1], [track[s][1] for s in states])
+    rise = tmax - (tn - DRIFT)
+    crit_d = rise >= crit
+    restrict_d = (rise >= allow) & ~crit_d
+    watch_d = (rise >= 0.8 * allow) & ~crit_d & ~restrict_d
+    # cold: -E alpha dT > 160 MPa, or E A (alpha dT)^2 / r > 50 mm (Esveld 2001, ch. 7)
+    dtc = tmin - tn
+    stress = -st.E_Pa * st.alpha_per_K * dtc
+    gap = np.where(dtc < 0, st.E_Pa * p.area_m2 * (st.alpha_per_K * dtc) ** 2 / r, 0.0)
+    cold = (stress > 160e6) | (gap > 0.05)
+    return {"watch": int(watch_d.sum()), "restrict": int(restrict_d.sum()), "critical": int(crit_d.sum())}, \
+        int(cold.sum()), rise
+
+
+def test_real_record_counts_json_and_csv(run_cli, tmp_path, greensboro):
+    daily, st, p, track, neutrals = greensboro
+    f = _write_sections(tmp_path / "gb.toml", neutrals)
+    res, data = run_cli("screen", f, "--json", "--out", tmp_path / "out", json_out=True)
+    assert res.exit_code == 0, res.output
+    secs = {s["id"]: s for s in data["sections"]}
+    assert set(secs) == set(neutrals)
+    flagged = pd.read_csv(tmp_path / "out" / "flagged_days.csv")
+    annual = pd.read_csv(tmp_path / "out" / "annual_counts.csv")
+    for sid, tn in neutrals.items():
+        heat, cold, rise = _expected(daily, st, p, track, tn, tamped=(sid == "GB-B"))
+        s = secs[sid]
+        assert s["heat_days_by_level"] == heat, sid
+        assert s["cold_days"] == cold, sid
+        assert s["first_date"] == "1990-01-01" and s["last_date"] == "1990-12-31"
+        assert s["missing_days"] == 0 and s["screened_days"] == 365
+        assert s["trend"]["heat_days_per_decade"] is None and "typical-year" in s["trend"]["note"]
+        # JSON counts equal the CSV rows
+        rows = flagged[flagged["section"] == sid]["level"].value_counts().to_dict()
+        assert {k: rows.get(k, 0) for k in heat} == s["heat_days_by_level"]
+        assert rows.get("cold", 0) == s["cold_days"]
+        yr = annual[annual["section"] == sid]
+        assert yr["year"].tolist() == [1990]
+        assert int(yr["restrict_days"].iloc[0]) == heat["restrict"]
+    assert secs["GB-A"]["heat_days_by_level"]["critical"] >= 5  # by construction of the neutral
+    assert secs["GB-C"]["cold_days"] > 0
+    heat_a, _, rise_a = _expected(daily, st, p, track, neutrals["GB-A"])
+    assert secs["GB-A"]["worst_day"]["rise_K"] == pytest.approx(float(rise_a.max()), abs=1e-9)
+    assert secs["GB-A"]["worst_day"]["date"] == rise_a.idxmax().date().isoformat()
+    assert secs["GB-B"]["disturbed_days"] == TAMP_DAYS
+    assert list(flagged.columns) == ["section", "date", "level", "rail_temperature_C", "neutral_temperature_C",
+                                     "rise_K", "allowable_rise_K"]
+    assert "caution" in data and data["settings"]["watch_fraction"] == 0.8
+    for name in ("flagged_timeline.png", "annual_counts.png", "screen_summary.csv"):
+        assert (tmp_path / "out" / name).stat().st_size > 1000
+
+
+def test_months_warming_and_override(run_cli, tmp_path, greensboro):
+    daily, st, p, track, neutrals = greensboro
+    f = _write_sections(tmp_path / "gb.toml", {"GB-A": neutrals["GB-A"]}, events=False)
+    res, data = run_cli("screen", f, "--json", "--months", "6-8", "--warming", "1.5 K", json_out=True)
+    heat, cold, _ = _expected(daily, st, p, track, neutrals["GB-A"], months=(6, 8), warming=1.5)
+    s = data["sections"][0]
+    assert s["heat_days_by_level"] == heat and s["cold_days"] == cold
+    assert s["screened_days"] == 30 + 31 + 31
+    assert data["settings"]["warming_K"] == 1.5 and data["settings"]["months"] == [6, 8]
+    # what-if: destressed to 45 degC (drift still applies)
+    res, data = run_cli("screen", f, "--json", "--neutral-override", "45 degC", json_out=True)
+    heat, cold, _ = _expected(daily, st, p, track, 45.0)
+    assert data["sections"][0]["heat_days_by_level"] == heat and data["sections"][0]["cold_days"] == cold
+
+
+def test_terminal_summary(run_cli, tmp_path, greensboro):
+    _, _, _, _, neutrals = greensboro
+    f = _write_sections(tmp_path / "gb.toml", neutrals)
+    res = run_cli("screen", f, "--units", "us")
+    assert res.exit_code == 0, res.output
+    for word in ("GB-A", "GB-C", "Worst days", "°F", "Caution", "No trend: typical-year record"):
+        assert word in res.output, word
+
+
+def test_wrapping_months_and_trend_on_30_years(run_cli, tmp_path):
+    # Gullhaven Quay: the bundled synthetic southern-hemisphere record, 1995-2024
+    root = Path(__file__).resolve().parents[1]
+    clim = root / "trackplan" / "data" / "climate" / "gullhaven_quay_hourly.csv.gz"
+    f = tmp_path / "gq.toml"
+    f.write_text(f"""
+[sections.GQ-X]
+rail = "60E1"
+climate = "{clim.as_posix()}"
+neutral_temperature = "12 degC"
+""")
+    res, data = run_cli("screen", f, "--json", "--months", "11-2", json_out=True)
+    assert res.exit_code == 0, res.output
+    s = data["sections"][0]
+    years = [a["year"] for a in s["annual"]]
+    # Jan-Feb 1995 belong to the season that started in 1994 (incomplete); Nov-Dec 2024 to 2024 (incomplete)
+    assert years[0] == 1994 and years[-1] == 2024 and len(years) == 31
+    # Nov 1994-Feb 1995: 30 + 31 + 31 + 28 days (of which the record holds Jan-Feb, 59); Nov 1995-Feb 1996 (leap): 121
+    assert [a["season_days"] for a in s["annual"][:2]] == [120, 121]
+    assert [a["screened_days"] + a["missing_days"] for a in s["annual"][:2]] == [59, 121]
+    assert not s["annual"][0]["complete"] and not s["annual"][-1]["complete"]
+    assert s["complete_years"] == 29
+    t = s["trend"]
+    assert t["years_used"] == 29 and t["heat_days_per_decade"] is not None
+    # the trend is the least-squares slope of the complete years' heat days (numpy.polyfit, independent here)
+    comp = [a for a in s["annual"] if a["complete"]]
+    x = np.array([a["year"] for a in comp], float)
+    y = np.array([a["watch_days"] + a["restrict_days"] + a["critical_days"] for a in comp], float)
+    assert t["heat_days_per_decade"] == pytest.approx(np.polyfit(x, y, 1)[0] * 10, abs=1e-9)
+
+
+@pytest.mark.parametrize("args,words", [
+    (["--months", "13-2"], "month range"),
+    (["--from", "1990-02-30"], "YYYY-MM-DD"),
+    (["--from", "1990-06-01", "--to", "1990-05-01"], "after --to"),
+    (["--watch-fraction", "1.5"], "--watch-fraction"),
+    (["--warming", "1.5 degC"], "--warming"),
+    (["--neutral-override", "90 degC"], "--neutral-override"),
+    (["--from", "2001-01-01"], "nothing to screen"),
+])
+def test_bad_options_exit_2(run_cli, tmp_path, args, words):
+    f = _write_sections(tmp_path / "gb.toml", {"GB-A": 20.0}, events=False)
+    res = run_cli("screen", f, *args)
+    assert res.exit_code == 2, res.output
+    assert words in res.output
+    assert "Traceback" not in res.output
+
+
+@pytest.mark.parametrize("extra,words", [
+    ("""
+[[sections.GB-A.events]]
+date = 1990-06-01
+kind = "tamping"
+recovery_days = 30
+[[sections.GB-A.events]]
+date = 1990-06-20
+kind = "ballast-work"
+""", "disturbance windows overlap"),
+    ("""
+[[sections.GB-A.events]]
+date = 2021-04-02
+kind = "tamping"
+""", "after the end of the climate record"),
+    ("""
+[[sections.GB-A.events]]
+date = "1990-13-01"
+kind = "tamping"
+""", "YYYY-MM-DD"),
+])
+def test_bad_events_exit_2_and_good_sections_still_reported(run_cli, tmp_path, extra, words):
+    f = _write_sections(tmp_path / "gb.toml", {"GB-A": 20.0, "GB-C": 35.0}, events=False, extra=extra)
+    res = run_cli("screen", f, "--json")
+    assert res.exit_code == 2
+    assert words in res.stderr
+    assert "Traceback" not in res.output
+    data = json.loads(res.stdout)
+    assert [s["id"] for s in data["sections"]] == ["GB-C"]
+    assert len(data["problems"]) == 1
+    res = run_cli("screen", f, "--strict")
+    assert res.exit_code == 2 and words in res.stderr
+
+
+def test_help_has_example(run_cli):
+    res = run_cli("screen", "--help")
+    assert res.exit_code == 0 and "Example: trackplan screen" in res.output
