@@ -119,7 +119,7 @@ from __future__ import annotations
 
 import csv
 import math
-from dataclasses import asdict, dataclass, field, fields, replace
+from dataclasses import dataclass, field, fields, replace
 from functools import lru_cache
 from importlib import resources
 from typing import Callable
@@ -817,6 +817,10 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
     Tmin_after = np.inf
     pd_checked_until_peak = True
     pending = None
+
+    def rising_far():
+        # beyond twice the displacement limit with no snap (no peak, or a dip below the threshold)
+        return path.disp[-1] >= 2 * DISPLACEMENT_LIMIT_M and (not peak_seen or Tmax - Tmin_after < SNAP_THRESHOLD_K)
     for _ in range(600):
         q_prev, T_prev = path.states[-1]
         if len(path.states) >= 2:
@@ -851,10 +855,10 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
                     ok = False
         if not ok:
             step *= 0.4
-            if step < step_min and trough_seen and T_prev > Tmin_after + 0.3:
+            if step < step_min and trough_seen and T_prev > Tmin_after + 0.05:
                 path.stop = "path following stopped after the trough"
                 return path
-            if step < step_min and not peak_seen and path.disp[-1] >= 10 * DISPLACEMENT_LIMIT_M:
+            if step < step_min and rising_far():
                 path.stop = "path following stopped on a rising curve"
                 return path
             if step < step_min:
@@ -869,10 +873,10 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
         if wmax < 0.7 * max(path.disp):
             # the path turns back toward small displacements (a fold of the whole buckle):
             # what follows is not needed and is not trusted
-            if trough_seen and T_prev > Tmin_after + 0.3:
+            if trough_seen and T_prev > Tmin_after + 0.05:
                 path.stop = "path following stopped after the trough"
                 return path
-            if not peak_seen and path.disp[-1] >= 10 * DISPLACEMENT_LIMIT_M:
+            if rising_far():
                 path.stop = "path following stopped on a rising curve"
                 return path
             raise StabilityError(
@@ -1241,6 +1245,8 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
         j = i_peak + int(np.argmin(rest))
         if j < len(T) - 1:
             d_lo, lower = _critical_point(M, path, j, -1)
+        elif path.stop == "path following stopped on a rising curve":
+            d_lo, lower = float(D[j]), float(T[j])
         else:
             raise StabilityError(
                 f"the equilibrium curve still falls at the end of the traced range ({path.stop}, rise "
@@ -1251,6 +1257,9 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
             notes.append(f"the curve dips by only {upper - lower:.2f} K after its peak; treated as progressive")
             lower = None
             d_lo = None
+    if path.stop == "path following stopped on a rising curve":
+        notes.append(f"the path could not be followed beyond {D[-1] * 1e3:.0f} mm (rise {T[-1]:.1f} K); "
+                     "no snap-through up to there")
     if response == "progressive":
         if i_peak is None:
             upper = float(T.max())
@@ -1259,9 +1268,6 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
                 upper = MAX_RISE_K
                 notes.append(f"no buckling up to a rise of {MAX_RISE_K:g} K (the limit of the analysis); "
                              "the upper critical rise is given as that limit")
-            elif path.stop == "path following stopped on a rising curve":
-                notes.append(f"the path could not be followed beyond {D[-1] * 1e3:.0f} mm (rise {T[-1]:.1f} K); "
-                             "no peak up to there")
             elif path.stop == "displacement limit":
                 notes.append(f"no peak up to a lateral displacement of {MAX_DISPLACEMENT_M * 1e3:.0f} mm; "
                              "the upper critical rise is the rise at that displacement")
@@ -1281,9 +1287,12 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
         notes.append(f"no misalignment given on a curve: the curve is traced with a {TRIGGER_MISALIGNMENT_M * 1e3:g} mm "
                      "trigger misalignment")
     if path.bifurcation_rise_K is not None and path.bifurcation_rise_K < upper:
-        notes.append(f"the traced symmetric path loses stability at {path.bifurcation_rise_K:.1f} K before its peak "
-                     "(bifurcation); the upper critical rise is taken there")
-        upper = path.bifurcation_rise_K
+        # the buckled branch that starts there is not traced: its trough is unknown, so no
+        # lower critical rise (and no allowable rise) can be given honestly
+        raise StabilityError(
+            f"the equilibrium path loses stability at a rise of {path.bifurcation_rise_K:.1f} K before its peak "
+            "(a bifurcation to another buckled shape, which this analysis does not follow); the upper critical "
+            "rise is at most that value, no lower critical rise can be given", "stability analysis")
     if lower is not None and lower > upper:
         lower = upper
     allow, words = CRITERIA[criterion](upper, lower, rise_lim)
@@ -1361,5 +1370,4 @@ __all__ = [
     "bifurcation_rise", "check_input", "clear_cache", "euler_critical_force", "get_preset",
     "hetenyi_critical_force", "lateral_resistance", "longitudinal_resistance", "pinned_column_critical_force",
     "presets", "shoulder_types", "sleeper_types", "solve_equilibrium_curve", "track_parameters",
-    "asdict", "replace",
 ]
