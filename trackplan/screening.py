@@ -94,7 +94,7 @@ then the days are counted by *season*, labelled by the year the season starts
 (November 2019 to February 2020 count in 2019). Without a wrap, or without
 months, years are calendar years. A year is *complete* when at least 90 % of
 its season's days have data; the trend is the least-squares slope
-(``numpy.polyfit``, degree 1) of the yearly counts over complete years, in days
+(as ``numpy.polyfit`` of degree 1) of the yearly counts over complete years, in days
 per decade, with its standard error, given when at least
 :data:`MIN_TREND_YEARS` complete years exist; a typical-year record (TMY) has
 no trend.
@@ -124,6 +124,8 @@ from trackplan.errors import InputError
 LEVELS = ("watch", "restrict", "critical")
 #: Level name of a cold day.
 COLD_LEVEL = "cold"
+#: Names of the flagged-day codes 0..3.
+FLAG_NAMES = LEVELS + (COLD_LEVEL,)
 #: Fewest complete years for a trend.
 MIN_TREND_YEARS = 5
 #: A year (season) is complete when this fraction of its days has data.
@@ -380,7 +382,7 @@ class AnnualCounts:
         return self.watch_days + self.restrict_days + self.critical_days
 
 
-def annual_counts(years, valid, heat_level, cold, season_days_of_year=None) -> AnnualCounts:
+def annual_counts(years, valid, heat_level, cold, season_days_of_year=None, groups=None) -> AnnualCounts:
     """Count the levels per year.
 
     Parameters
@@ -393,8 +395,11 @@ def annual_counts(years, valid, heat_level, cold, season_days_of_year=None) -> A
         Codes of :func:`classify_heat`.
     cold : array of bool
         Cold days.
-    season_days_of_year : callable, optional
-        ``years -> days in each year's season`` (default: the days present).
+    season_days_of_year : callable or array, optional
+        ``years -> days in each year's season``, or those days for the sorted
+        unique years (default: the days present).
+    groups : (array, array), optional
+        ``numpy.unique(years, return_inverse=True)``, when already known.
 
     Returns
     -------
@@ -407,7 +412,7 @@ def annual_counts(years, valid, heat_level, cold, season_days_of_year=None) -> A
     if years.size == 0:
         z = np.zeros(0, dtype=np.int64)
         return AnnualCounts(z, z, z, z, z, z, z, z, np.zeros(0, dtype=bool))
-    uy, inv = np.unique(years, return_inverse=True)
+    uy, inv = groups if groups is not None else np.unique(years, return_inverse=True)
     n = uy.size
 
     def cnt(mask):
@@ -415,7 +420,12 @@ def annual_counts(years, valid, heat_level, cold, season_days_of_year=None) -> A
 
     present = np.bincount(inv, minlength=n).astype(np.int64)
     screened = cnt(valid)
-    season = season_days_of_year(uy) if season_days_of_year is not None else present
+    if season_days_of_year is None:
+        season = present
+    elif callable(season_days_of_year):
+        season = season_days_of_year(uy)
+    else:
+        season = season_days_of_year
     season = np.asarray(season, dtype=np.int64)
     return AnnualCounts(
         year=uy,
@@ -443,16 +453,18 @@ class Trend:
 
 
 def _slope(x, y):
-    """Least-squares slope and its standard error ``sqrt(SSR / (n - 2) / Sxx)``, both per decade."""
-    p = np.polyfit(x, y, 1)
-    resid = y - np.polyval(p, x)
-    sxx = float(((x - x.mean()) ** 2).sum())
-    se = math.sqrt(float((resid**2).sum()) / (x.size - 2) / sxx) if x.size > 2 and sxx > 0 else None
-    return float(p[0]) * 10.0, (se * 10.0 if se is not None else None)
+    """Least-squares slope ``Sxy / Sxx`` (the degree-1 ``numpy.polyfit`` slope, in closed form) and its
+    standard error ``sqrt(SSR / (n - 2) / Sxx)``, both per decade."""
+    dx = x - x.mean()
+    sxx = float(dx @ dx)
+    b = float(dx @ (y - y.mean())) / sxx
+    resid = y - y.mean() - b * dx
+    se = math.sqrt(max(float(resid @ resid), 0.0) / (x.size - 2) / sxx) if x.size > 2 else None
+    return b * 10.0, (se * 10.0 if se is not None else None)
 
 
 def annual_trend(annual: AnnualCounts, typical_year: bool = False) -> Trend:
-    """Slope of the yearly counts (``numpy.polyfit``, degree 1) in days per decade.
+    """Least-squares slope of the yearly counts (as ``numpy.polyfit``, degree 1) in days per decade.
 
     Heat days are days at ``watch`` or above; restrict days at ``restrict`` or
     above. Only complete years are used; fewer than :data:`MIN_TREND_YEARS`
@@ -551,7 +563,8 @@ class ScreenOptions:
 class FlaggedDays:
     """Every flagged day of one section, in date order (heat before cold on the same day).
 
-    ``level`` holds names (:data:`LEVELS` or ``cold``); ``rail_temperature_C`` is
+    ``level_code`` holds 0..3 for ``watch``, ``restrict``, ``critical``, ``cold``
+    (:data:`FLAG_NAMES`; ``level`` gives the names); ``rail_temperature_C`` is
     the day's maximum (heat) or minimum (cold); ``neutral_temperature_C`` the
     drifted (heat) or undrifted (cold) neutral; ``rise_K`` their difference;
     ``allowable_rise_K`` the day's allowable rise (heat) or the cold limit as a
@@ -559,7 +572,7 @@ class FlaggedDays:
     """
 
     date: np.ndarray  # datetime64[D]
-    level: np.ndarray  # str
+    level_code: np.ndarray  # int8 index into FLAG_NAMES
     rail_temperature_C: np.ndarray
     neutral_temperature_C: np.ndarray
     rise_K: np.ndarray
@@ -567,6 +580,11 @@ class FlaggedDays:
 
     def __len__(self) -> int:
         return int(self.date.size)
+
+    @property
+    def level(self) -> np.ndarray:
+        """Level names of the rows."""
+        return np.asarray(FLAG_NAMES, dtype=object)[self.level_code]
 
 
 @dataclass(frozen=True)
@@ -645,9 +663,9 @@ class ScreenResult:
     problems: list  # InputError
 
 
-def summarise_days(section_id: str, name: str, dates, years, season_lengths_fn, days: DayScreen, rail_max_C,
+def summarise_days(section_id: str, name: str, dates, years, season_days, days: DayScreen, rail_max_C,
                    rail_min_C, heat_neutral_C, cold_neutral_C, allowable_rise_K, cold_limit: float,
-                   typical_year: bool = False):
+                   typical_year: bool = False, groups=None):
     """Counts, worst days, annual table, trend and flagged rows from per-day arrays.
 
     Returns a dict of the :class:`SectionScreen` fields that depend on the days.
@@ -676,7 +694,9 @@ def summarise_days(section_id: str, name: str, dates, years, season_lengths_fn, 
     if v.any():
         idx = np.flatnonzero(v)
         margin = allow[idx] - days.rise_K[idx]
-        order = idx[np.argsort(margin, kind="stable")[:5]]
+        k = min(5, margin.size)
+        part = np.argpartition(margin, k - 1)[:k] if margin.size > k else np.arange(margin.size)
+        order = idx[part[np.argsort(margin[part], kind="stable")]]
         worst_list = [day_at(i) for i in order]
         worst = worst_list[0]
         worst_cold = day_at(idx[np.argmin(days.cold_rise_K[idx])], cold=True)
@@ -685,19 +705,17 @@ def summarise_days(section_id: str, name: str, dates, years, season_lengths_fn, 
     cld = np.flatnonzero(days.cold)
     both = np.concatenate([hot, cld])
     is_cold = np.concatenate([np.zeros(hot.size, bool), np.ones(cld.size, bool)])
-    order = np.lexsort((is_cold, both))
+    order = np.argsort(both * 2 + is_cold, kind="stable")
     both, is_cold = both[order], is_cold[order]
-    names = np.array(LEVELS + (COLD_LEVEL,), dtype=object)
-    lvl_idx = np.where(is_cold, 3, days.heat_level[both].astype(np.int64) - 1)
     flagged = FlaggedDays(
         date=dates[both],
-        level=names[lvl_idx],
+        level_code=np.where(is_cold, 3, days.heat_level[both] - 1).astype(np.int8),
         rail_temperature_C=np.where(is_cold, tmin[both], tmax[both]),
         neutral_temperature_C=np.where(is_cold, cold_neutral_C[both], heat_neutral_C[both]),
         rise_K=np.where(is_cold, days.cold_rise_K[both], days.rise_K[both]),
         allowable_rise_K=np.where(is_cold, cold_limit, allow[both]),
     )
-    annual = annual_counts(years, v, days.heat_level, days.cold, season_lengths_fn)
+    annual = annual_counts(years, v, days.heat_level, days.cold, season_days, groups)
     return dict(
         id=section_id,
         name=name,
@@ -735,7 +753,8 @@ class _RecordView:
     typical_year: bool
     station: str
     warnings: tuple
-    season_lengths: object  # callable years -> season days
+    groups: tuple  # numpy.unique(years, return_inverse=True)
+    season_days: np.ndarray  # days of each unique year's season
 
 
 def _critical_of(stab) -> tuple[float, str]:
@@ -788,10 +807,12 @@ class Screener:
                     + ("" if o.months is None else f", months {o.months[0]}-{o.months[1]}")
                     + "; widen --from/--to or --months", "--from/--to")
             months = o.months
+            sy = season_year(y[sel], m[sel], months)
+            groups = np.unique(sy, return_inverse=True)
             self._views[key] = _RecordView(
                 dates=dates_all[sel],
                 day=(dates_all[sel] - _EPOCH).astype(np.int64),
-                years=season_year(y[sel], m[sel], months),
+                years=sy,
                 rail_max_C=daily["rail_max_C"].to_numpy(dtype=float)[sel] + o.warming_K,
                 rail_min_C=daily["rail_min_C"].to_numpy(dtype=float)[sel] + o.warming_K,
                 record_first=first,
@@ -799,7 +820,8 @@ class Screener:
                 typical_year=bool(meta.get("typical_year")),
                 station=str(meta.get("station") or section.climate_path.stem),
                 warnings=tuple(meta.get("warnings", [])) + tuple(daily.attrs.get("warnings", [])),
-                season_lengths=lambda yrs, mo=months: season_lengths(yrs, mo),
+                groups=groups,
+                season_days=season_lengths(groups[0], months),
             )
         return self._views[key]
 
@@ -889,9 +911,9 @@ class Screener:
                            o.watch_fraction)
         cold_limit = cold_limit_rise_K(st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m,
                                        section.tension_stress_limit_Pa)
-        summary = summarise_days(section.id, section.name, view.dates, view.years, view.season_lengths, days,
+        summary = summarise_days(section.id, section.name, view.dates, view.years, view.season_days, days,
                                  view.rail_max_C, view.rail_min_C, heat_neutral, neutral, allowable, cold_limit,
-                                 view.typical_year)
+                                 view.typical_year, view.groups)
         return SectionScreen(
             **summary,
             allowable_rise_K=a_own,
@@ -938,21 +960,22 @@ def flagged_frame(result: ScreenResult):
     """Every flagged day of every section (columns :data:`FLAGGED_COLUMNS`)."""
     import pandas as pd
 
-    parts = []
-    for s in result.sections:
-        f = s.flagged
-        parts.append(pd.DataFrame({
-            "section": np.full(len(f), s.id, dtype=object),
-            "date": pd.to_datetime(f.date).strftime("%Y-%m-%d") if len(f) else np.zeros(0, dtype=object),
-            "level": f.level,
-            "rail_temperature_C": np.round(f.rail_temperature_C, 2),
-            "neutral_temperature_C": np.round(f.neutral_temperature_C, 2),
-            "rise_K": np.round(f.rise_K, 2),
-            "allowable_rise_K": np.round(f.allowable_rise_K, 2),
-        }))
-    if not parts:
+    secs = result.sections
+    if not secs:
         return pd.DataFrame(columns=list(FLAGGED_COLUMNS))
-    return pd.concat(parts, ignore_index=True)
+    n = [len(s.flagged) for s in secs]
+    cat = lambda name: np.concatenate([getattr(s.flagged, name) for s in secs])
+    ids = pd.Categorical.from_codes(np.repeat(np.arange(len(secs)), n), [s.id for s in secs])
+    return pd.DataFrame({
+        "section": ids,
+        # datetime64 at midnight: written as YYYY-MM-DD
+        "date": cat("date").astype("datetime64[s]"),
+        "level": pd.Categorical.from_codes(cat("level_code"), list(FLAG_NAMES)),
+        "rail_temperature_C": np.round(cat("rail_temperature_C"), 2),
+        "neutral_temperature_C": np.round(cat("neutral_temperature_C"), 2),
+        "rise_K": np.round(cat("rise_K"), 2),
+        "allowable_rise_K": np.round(cat("allowable_rise_K"), 2),
+    })
 
 
 def annual_frame(result: ScreenResult):
