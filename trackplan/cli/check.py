@@ -7,6 +7,7 @@ from pathlib import Path
 from typing import Optional
 
 import typer
+from rich.markup import escape
 from rich.table import Table
 
 from trackplan import CAUTION, units
@@ -50,8 +51,7 @@ def print_checks(results, s: str) -> None:
              (units.header("margin", "temperature_difference", s), "right"),
              (units.header("compr./rail", "force", s), "right"),
              (units.header("design min", "temperature", s), "right"),
-             (units.header("break gap", "short_length", s), "right"),
-             ("reasons", "left")]
+             (units.header("break gap", "short_length", s), "right")]
     for h, j in heads:
         table.add_column(h, justify=j, overflow="fold")
     us = s == "us"
@@ -67,9 +67,12 @@ def print_checks(results, s: str) -> None:
             units.number(c.max_compression_force_per_rail_N, "force", s, 1 if us else 0),
             units.number(c.design_min_rail_temperature_C, "temperature", s),
             units.number(c.pull_apart_gap_m, "short_length", s, 2 if us else 0),
-            "\n".join(c.reasons),
         )
     console.print(table)
+    for a in results:
+        c = a.check
+        console.print(f"[{_STYLE[c.verdict]}]{a.section.id} {c.verdict}[/]: " + "; ".join(escape(r) for r in c.reasons),
+                      highlight=False)
 
 
 def write_check_outputs(out: Path, results, sections_file: Path, system: str) -> list[Path]:
