@@ -1,0 +1,133 @@
+"""target, check and demo end to end on the example network (figures re-derived in the test)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+EXAMPLE = ROOT / "examples" / "network.toml"
+
+
+@pytest.fixture(scope="module")
+def demo_out(tmp_path_factory):
+    from typer.testing import CliRunner
+
+    from trackplan.cli import app
+
+    out = tmp_path_factory.mktemp("demo")
+    res = CliRunner().invoke(app, ["demo", "--out", str(out)])
+    assert res.exit_code == 0, res.output
+    return out, res.stdout
+
+
+def test_demo_writes_report_and_figures_are_consistent(demo_out):
+    out, stdout = demo_out
+    assert "Planning aid only" in stdout and "fictional" in stdout
+    df = pd.read_csv(out / "check.csv")
+    assert len(df) >= 8
+    for sid in df["section"]:
+        assert (out / f"force_envelope_{sid}.png").stat().st_size > 5000
+    html = (out / "check_summary.html").read_text()
+    assert "Planning aid only" in html and "data:image/png;base64," in html
+    # Re-derive every figure from the CSV's own inputs (thermal force P = E A alpha dT,
+    # DOMAIN.md 2; break gap P^2 / (E A r), Esveld 2001 ch. 7).
+    from trackplan import rails, thermal
+
+    for _, r in df.iterrows():
+        p = rails.get_profile(r["rail"])
+        st = thermal.default_steel(p.is_north_american)
+        cur = r["recorded_neutral_temperature_C"] - r["drift_allowance_K"]
+        assert r["current_neutral_temperature_C"] == pytest.approx(cur)
+        rise = r["design_max_rail_temperature_C"] - cur
+        assert r["heat_rise_K"] == pytest.approx(rise)
+        assert r["max_compression_force_per_rail_kN"] == pytest.approx(st.E_Pa * p.area_m2 * st.alpha_per_K * rise / 1e3)
+        assert r["heat_margin_K"] == pytest.approx(r["allowable_rise_K"] - rise)
+        cold = r["design_min_rail_temperature_C"] - r["recorded_neutral_temperature_C"]
+        P = st.E_Pa * p.area_m2 * st.alpha_per_K * cold
+        gap = P**2 / (st.E_Pa * p.area_m2 * r["longitudinal_resistance_kN_per_m"] * 1e3)
+        assert r["pull_apart_gap_mm"] == pytest.approx(gap * 1e3, rel=1e-6)
+        # verdict rule (trackplan.check): act when the margin is negative or a cold limit is exceeded
+        act = r["heat_margin_K"] < 0 or r["pull_apart_gap_mm"] > r["gap_limit_mm"] or -r["max_tension_stress_MPa"] > 160
+        assert (r["verdict"] == "act") == act
+        assert r["allowable_rise_K"] <= r["upper_critical_rise_K"]
+        assert 0 < r["allowable_rise_K"] < 80
+    # the scenario the example network is built for
+    by = df.set_index("section")
+    assert by.loc["DS-302", "verdict"] == "act" and "destress to" in by.loc["DS-302", "reasons"]
+    assert by.loc["GQ-201", "verdict"] == "ok"
+    assert by.loc["KP-104", "ballast"] == "disturbed"
+    # disturbed ballast lowers the allowable rise (same climate, same profile)
+    assert by.loc["KP-104", "allowable_rise_K"] < by.loc["KP-101", "allowable_rise_K"]
+    # worst first
+    order = {"act": 0, "watch": 1, "ok": 2}
+    assert list(df["verdict"].map(order)) == sorted(df["verdict"].map(order))
+
+
+def test_target_json(run_cli):
+    res, d = run_cli("target", str(EXAMPLE), "--json", json_out=True)
+    assert res.exit_code == 0
+    rows = {s["id"]: s for s in d["sections"]}
+    need = {"id", "target_neutral_temperature_C", "laying_range_C", "feasible_window_C", "feasible",
+            "design_max_rail_temperature_C", "design_min_rail_temperature_C", "allowable_rise_K",
+            "drift_allowance_K"}
+    for s in rows.values():
+        assert need <= set(s)
+        # heat floor T_hot + d - allowable (trackplan.target docstring)
+        floor = s["design_max_rail_temperature_C"] + s["drift_allowance_K"] - s["allowable_rise_K"]
+        assert s["heat_floor_C"] == pytest.approx(floor)
+        if s["feasible"]:
+            lo, hi = s["feasible_window_C"]
+            a, b = s["laying_range_C"]
+            assert lo - 1e-9 <= a <= s["target_neutral_temperature_C"] <= b <= hi + 1e-9
+            # biased to the hot side: the target is above the middle of the window
+            assert s["target_neutral_temperature_C"] >= (lo + hi) / 2 - 1e-9
+        else:
+            assert s["target_neutral_temperature_C"] is None and s["would_open_window"]
+    assert rows["GQ-201"]["feasible"]
+    assert any(not s["feasible"] for s in rows.values())
+    assert d["caution"]
+
+
+def test_check_exit_code_and_json(run_cli):
+    res, d = run_cli("check", str(EXAMPLE), "--json", json_out=True)
+    assert res.exit_code == 1  # some sections are 'act' (documented exit code for scripts)
+    s0 = d["sections"][0]
+    assert {"id", "verdict", "reasons", "current_neutral_temperature_C", "max_compression_force_per_rail_kN",
+            "heat_margin_K", "max_tension_force_per_rail_kN", "pull_apart_gap_mm"} <= set(s0)
+    assert s0["verdict"] == "act" and s0["max_tension_force_per_rail_kN"] < 0
+
+
+def test_check_ok_network_exit_0(run_cli, tmp_path):
+    body = EXAMPLE.read_text()
+    head = body.split("[sections.")[0]
+    gq = "[sections.GQ-201]" + body.split("[sections.GQ-201]")[1].split("\n[sections.GQ-202]")[0]
+    f = tmp_path / "one.toml"
+    f.write_text(head.replace("../climate_samples/", str(ROOT / "climate_samples") + "/") +
+                 gq.replace("../climate_samples/", str(ROOT / "climate_samples") + "/"))
+    res, d = run_cli("check", str(f), "--json", json_out=True)
+    assert res.exit_code == 0 and [s["verdict"] for s in d["sections"]] == ["ok"]
+
+
+def test_bad_section_reported_good_ones_kept(run_cli, tmp_path):
+    text = EXAMPLE.read_text().replace("../climate_samples/", str(ROOT / "climate_samples") + "/")
+    text = text.replace('climate = "' + str(ROOT / "climate_samples") + '/gullhaven_quay_hourly.csv.gz"\ntrack_azimuth = "10 deg"',
+                        'climate = "missing.csv"\ntrack_azimuth = "10 deg"')
+    f = tmp_path / "net.toml"
+    f.write_text(text)
+    res = run_cli("target", str(f), "--json")
+    assert res.exit_code == 2
+    d = json.loads(res.stdout)
+    ids = [s["id"] for s in d["sections"]]
+    assert "GQ-201" not in ids and "GQ-202" in ids
+    assert any("GQ-201" in p and "climate record not found" in p for p in d["problems"])
+    res = run_cli("target", str(f), "--strict")
+    assert res.exit_code == 2 and "Traceback" not in res.output
+
+
+def test_check_out_refuses_input_file(run_cli, tmp_path):
+    res = run_cli("check", str(EXAMPLE), "--out", str(EXAMPLE))
+    assert res.exit_code == 2 and "input" in res.output
