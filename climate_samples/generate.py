@@ -292,7 +292,7 @@ def header(st: Station) -> str:
     sign = "+" if st.utc_offset_h >= 0 else "-"
     lines = [
         f"station: {st.name}",
-        f"station_id: TP-{st.key.upper()[:3]}-{STATIONS.index(st) + 1:02d}",
+        f"station_id: TP-{st.key.upper()[:3]}-{(STATIONS.index(st) + 1) if st in STATIONS else 0:02d}",
         f"climate: {st.climate}",
         f"latitude: {st.latitude:.2f}",
         f"longitude: {st.longitude:.2f}",
