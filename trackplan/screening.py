@@ -780,17 +780,22 @@ class Screener:
         self.assessor = assessor
         self.options = (options or ScreenOptions()).validate()
         self._views: dict = {}
+        self._calendars: dict = {}  # keyed by the date index's length and ends (checked equal on a hit)
         self._stab: dict = {}
         self._resistance: dict = {}
 
     # -- caches ---------------------------------------------------------
-    def _view(self, section) -> _RecordView:
-        daily, meta, key = self.assessor.daily(section)
-        if key not in self._views:
+    def _calendar(self, daily, where: str):
+        """Window of a record's dates (shared by every orientation of the record)."""
+        idx = daily.index
+        ckey = (len(idx), idx[0] if len(idx) else None, idx[-1] if len(idx) else None)
+        hit = self._calendars.get(ckey)
+        if hit is not None and not (hit[0] is idx or hit[0].equals(idx)):
+            hit = None
+            ckey = ckey + (id(idx),)
+        if hit is None and ckey not in self._calendars:
             o = self.options
-            idx = daily.index
             dates_all = np.asarray(idx.values, dtype="datetime64[D]")
-            where = f"{section.file.name} [sections.{section.id}]"
             if dates_all.size == 0:
                 raise InputError("the climate record has no days", f"{where} climate")
             first, last = dates_all[0].astype(dt.date), dates_all[-1].astype(dt.date)
@@ -806,12 +811,21 @@ class Screener:
                     f"nothing to screen: the climate record covers {first.isoformat()} to {last.isoformat()}"
                     + ("" if o.months is None else f", months {o.months[0]}-{o.months[1]}")
                     + "; widen --from/--to or --months", "--from/--to")
-            months = o.months
-            sy = season_year(y[sel], m[sel], months)
+            sy = season_year(y[sel], m[sel], o.months)
             groups = np.unique(sy, return_inverse=True)
+            self._calendars[ckey] = (idx, sel, dates_all[sel], (dates_all[sel] - _EPOCH).astype(np.int64), sy,
+                                     groups, season_lengths(groups[0], o.months), first, last)
+        return self._calendars[ckey][1:]
+
+    def _view(self, section) -> _RecordView:
+        daily, meta, key = self.assessor.daily(section)
+        if key not in self._views:
+            o = self.options
+            where = f"{section.file.name} [sections.{section.id}]"
+            sel, dates, day, sy, groups, season_days, first, last = self._calendar(daily, where)
             self._views[key] = _RecordView(
-                dates=dates_all[sel],
-                day=(dates_all[sel] - _EPOCH).astype(np.int64),
+                dates=dates,
+                day=day,
                 years=sy,
                 rail_max_C=daily["rail_max_C"].to_numpy(dtype=float)[sel] + o.warming_K,
                 rail_min_C=daily["rail_min_C"].to_numpy(dtype=float)[sel] + o.warming_K,
@@ -821,7 +835,7 @@ class Screener:
                 station=str(meta.get("station") or section.climate_path.stem),
                 warnings=tuple(meta.get("warnings", [])) + tuple(daily.attrs.get("warnings", [])),
                 groups=groups,
-                season_days=season_lengths(groups[0], months),
+                season_days=season_days,
             )
         return self._views[key]
 

@@ -79,7 +79,7 @@ def print_summary(result, s: str) -> None:
     secs = sorted(result.sections, key=rank_key)
     dT = lambda v: units.number(v, "temperature_difference", s)
     table = Table(title="Risk days per section (days per complete year; worst first)")
-    for h, j in (("section", "left"), ("record", "left"), ("years", "right"), ("missing days", "right"),
+    for h, j in (("section", "left"), ("record", "left"), ("complete years", "right"), ("missing days", "right"),
                  ("watch", "right"), ("restrict", "right"), ("critical", "right"), ("cold", "right"),
                  (units.header("worst day: rise / allowable", "temperature_difference", s), "left"),
                  ("heat-day trend (days/decade)", "right")):
@@ -189,14 +189,15 @@ def annual_figure(result, system: str = "si"):
     n = max(len(secs), 1)
     cols = 2 if n > 1 else 1
     rows = math.ceil(n / cols)
-    fig, axes = plt.subplots(rows, cols, figsize=(6.5 * cols, 2.6 * rows), squeeze=False)
-    for ax, r in zip(axes.ravel(), secs):
+    fig, axes = plt.subplots(rows, cols, figsize=(5.0 * cols, 2.1 * rows), squeeze=False)
+    for k, (ax, r) in enumerate(zip(axes.ravel(), secs)):
         a = r.annual
+        # stacked steps, one polygon per level (as fast as a bar chart is slow)
         bottom = np.zeros(a.year.size)
         for lev, col in (("watch", a.watch_days), ("restrict", a.restrict_days), ("critical", a.critical_days)):
-            ax.bar(a.year, col, bottom=bottom, color=_LEVEL_COLOUR[lev], label=lev, width=0.8)
+            ax.fill_between(a.year, bottom, bottom + col, step="mid", color=_LEVEL_COLOUR[lev], label=lev, lw=0)
             bottom = bottom + col
-        ax.bar(a.year, -a.cold_days, color=_LEVEL_COLOUR["cold"], label="cold (down)", width=0.8)
+        ax.fill_between(a.year, 0, -a.cold_days, step="mid", color=_LEVEL_COLOUR["cold"], label="cold (down)", lw=0)
         part = ~a.complete
         if part.any():
             ax.plot(a.year[part], np.zeros(int(part.sum())), "x", color="0.4", label="incomplete year")
@@ -204,18 +205,21 @@ def annual_figure(result, system: str = "si"):
         if t.heat_days_per_decade is not None:
             x = a.year[a.complete].astype(float)
             p = np.polyfit(x, a.heat_days[a.complete].astype(float), 1)
-            ax.plot(x, np.polyval(p, x), "k--", lw=1, label=f"trend {t.heat_days_per_decade:+.1f} days/decade")
+            ax.plot(x, np.polyval(p, x), "k--", lw=1, label="trend of heat days")
         ax.axhline(0, color="k", lw=0.5)
-        ax.set_title(f"{r.id}: heat days per year (cold below)", fontsize=9)
-        ax.set_ylabel("days")
-        ax.legend(fontsize=6, loc="upper left")
+        trend = "no trend" if t.heat_days_per_decade is None else f"trend {t.heat_days_per_decade:+.1f} days/decade"
+        ax.set_title(f"{r.id}: days per year, cold below ({trend})", fontsize=8)
+        ax.set_ylabel("days", fontsize=8)
+        ax.tick_params(labelsize=7)
+        if k == 0:
+            ax.legend(fontsize=6, loc="upper left")
         ax.grid(axis="y", alpha=0.3)
     for ax in axes.ravel()[len(secs):]:
         ax.set_visible(False)
     if len(result.sections) > len(secs):
         fig.suptitle(f"{len(secs)} worst of {len(result.sections)} sections; every section in annual_counts.csv",
                      fontsize=9)
-    fig.tight_layout()
+    fig.subplots_adjust(hspace=0.45, wspace=0.18)
     return fig
 
 
