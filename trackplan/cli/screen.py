@@ -120,7 +120,7 @@ def print_summary(result, s: str) -> None:
         worst_t = max(trends, key=lambda r: r.trend.heat_days_per_decade)
         t = worst_t.trend
         console.print(
-            "Trend: least-squares slope (numpy.polyfit) of the heat days (watch or worse) per complete year, in days "
+            "Trend: least-squares slope (as numpy.polyfit, degree 1) of the heat days (watch or worse) per complete year, in days "
             f"per decade ± standard error. Steepest: {worst_t.id} {t.heat_days_per_decade:+.1f} days per decade "
             f"(restrict or worse {t.restrict_days_per_decade:+.1f}, cold {t.cold_days_per_decade:+.1f}; {t.note}).",
             highlight=False)
