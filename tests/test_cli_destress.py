@@ -123,3 +123,13 @@ def test_temperature_without_unit_in_a_file(run_cli, tmp_path):
     res = run_cli("destress", "--job", job)
     assert res.exit_code == 2 and "Traceback" not in res.output
     assert "rail_temp" in res.output and "has no unit" in res.output
+
+
+def test_bare_observed_movement_is_mm_and_absurd_reading_refused(run_cli):
+    res, d = run_cli("destress", "--rail", "60E1", "--length", "400", "--rail-temp", "15", "--target", "27",
+                     "--observed-movement", "40", "--at-mark", "400", "--json", json_out=True)
+    # 40 mm at 400 m: 15 + 0.040 / (1.15e-5 * 400) = 23.70 degC (formula only)
+    assert d["achieved_neutral_temperature_C"] == pytest.approx(15 + 0.040 / (1.15e-5 * 400), abs=1e-6)
+    res = run_cli("destress", "--rail", "60E1", "--length", "400 m", "--rail-temp", "15 degC", "--target", "27 degC",
+                  "--observed-movement", "40 m", "--at-mark", "400 m")
+    assert res.exit_code == 2 and "no pull can reach" in res.output

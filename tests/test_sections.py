@@ -59,6 +59,7 @@ def test_package_copy_of_example_matches():
         (section(neutral_date='"14/06/2019"'), "YYYY-MM-DD"),
         (section(climate='"nowhere.csv"'), "climate record not found"),
         (section(radius='"80 m"'), "below 100 m"),
+        (section(misalignment='"0 mm"'), "realistic misalignment"),
         (section(shade="1.5"), "outside 0.0..1.0"),
         (section(colour='"red"'), "unknown field"),
         (section(**{"stability": '{ peak_resistance = "12" }'}), "no unit"),

@@ -94,3 +94,10 @@ def test_fmt():
     assert units.fmt(27.0, "temperature", "us") == "80.6 °F"
     assert units.fmt(0.0585, "short_length", "si") == "58.5 mm"
     assert units.fmt(None, "force") == "–"
+
+
+def test_short_length_bare_numbers():
+    # a movement or a misalignment typed as a bare number is in mm (si) or in (us), not m or ft
+    assert units.parse("40", "short_length", "--observed-movement", default_unit=units.default_unit("short_length", "si")) == pytest.approx(0.040)
+    assert units.parse("2", "short_length", "x", default_unit=units.default_unit("short_length", "us")) == pytest.approx(0.0508)
+    assert units.parse("3 ft", "short_length", "x") == pytest.approx(0.9144)

@@ -772,6 +772,13 @@ def plan_destressing(
                 "--at-mark",
             )
         achieved = float(achieved_neutral_temperature(observed_movement_m, at_mark_m, base, alpha_per_K))
+        if not TARGET_RANGE_C[0] - 20.0 <= achieved <= TARGET_RANGE_C[1] + 20.0:
+            raise InputError(
+                f"a movement of {units.fmt(observed_movement_m, 'short_length', system)} at "
+                f"{units.fmt(at_mark_m, 'length', system)} would mean a neutral temperature of {achieved:.0f} degC, "
+                "which no pull can reach: check the reading and its unit (e.g. '40 mm')",
+                "--observed-movement",
+            )
         expected_at = float(mark_movements(at_mark_m, base, t_t, alpha_per_K))
 
     heat_C = None

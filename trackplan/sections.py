@@ -368,8 +368,9 @@ def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
         raise InputError(f"sleeper spacing {spacing:.2f} m is outside 0.3..1.0 m", f.w("sleeper_spacing"))
     mis = f.quantity("misalignment", "length")
     mis_len = f.quantity("misalignment_length", "length")
-    if not 0 <= mis <= 0.1:
-        raise InputError(f"misalignment {mis * 1e3:.0f} mm is outside 0..100 mm", f.w("misalignment"))
+    if not 0.005 <= mis <= 0.1:
+        raise InputError(f"misalignment {mis * 1e3:.0f} mm is outside 5..100 mm (planning needs a realistic "
+                         "misalignment: track has 10-50 mm over 6-12 m)", f.w("misalignment"))
     if not 2.0 <= mis_len <= 40.0:
         raise InputError(f"misalignment length {mis_len:.1f} m is outside 2..40 m", f.w("misalignment_length"))
     length = f.quantity("length", "length")

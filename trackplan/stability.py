@@ -1284,6 +1284,9 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
     if D[: stop_i + 1].max() >= DISPLACEMENT_LIMIT_M:
         k = int(np.argmax(D[: stop_i + 1] >= DISPLACEMENT_LIMIT_M))
         rise_lim = float(np.interp(DISPLACEMENT_LIMIT_M, D[k - 1:k + 1], T[k - 1:k + 1]))
+    # The allowable rise always comes from the traced curve (never from the bifurcation rise of a
+    # perfectly straight track, which no real track reaches).
+    upper_traced = upper
     if perfect and inp.radius_m is None:
         t_bif = bifurcation_rise(inp, element_length_m, half_length_m)
         notes.append(f"perfect track: the upper critical rise is the bifurcation rise {t_bif:.1f} K of the straight "
@@ -1302,7 +1305,14 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
             "rise is at most that value, no lower critical rise can be given", "stability analysis")
     if lower is not None and lower > upper:
         lower = upper
-    allow, words = CRITERIA[criterion](upper, lower, rise_lim)
+    allow, words = CRITERIA[criterion](min(upper, upper_traced), lower, rise_lim)
+    if perfect:
+        notes.append(f"the allowable rise is read from the curve traced with the {TRIGGER_MISALIGNMENT_M * 1e3:g} mm "
+                     "trigger misalignment; real track has misalignments of 10-50 mm: give one for planning")
+        if upper_traced >= MAX_RISE_K and lower is None and rise_lim is None:
+            allow = float("nan")
+            words = (f"no allowable rise: the perfect track shows no buckling up to the analysis limit of "
+                     f"{MAX_RISE_K:g} K; give a realistic misalignment")
     # half-length of the buckle at the lower critical point (or the last state)
     idx = (j if lower is not None else len(T) - 1)
     qb, _ = path.states[idx]

@@ -270,6 +270,11 @@ def _canonical_unit(unit: str) -> str:
     return _ALIASES.get(u.lower(), u)
 
 
+#: Kinds parsed as another kind; they differ only in the unit of a bare number typed on the
+#: command line (a misalignment or a movement is typed in mm or in, a length in m or ft).
+_KIND_ALIAS = {"short_length": "length"}
+
+
 def _check_kind(kind: str) -> None:
     if kind not in _UNITS:
         raise KeyError(f"unknown quantity kind {kind!r}; known: {sorted(_UNITS)}")
@@ -332,6 +337,7 @@ def to_si(value: float, unit: str, kind: str, where: str | None = None) -> float
     InputError
         Unknown unit, or a unit of another dimension.
     """
+    kind = _KIND_ALIAS.get(kind, kind)
     _check_kind(kind)
     u = _canonical_unit(unit)
     if kind == "temperature_difference" and u in ("degC", "degF", "°C", "°F", "celsius", "fahrenheit"):
@@ -409,6 +415,7 @@ def parse_with_unit(
     default_unit: str | None = None,
 ) -> Parsed:
     """Like :func:`parse` but also return the unit as written (for echoing)."""
+    kind = _KIND_ALIAS.get(kind, kind)
     _check_kind(kind)
     if isinstance(text, bool):
         raise InputError(f"expected a {kind.replace('_', ' ')} with a unit, got {text!r}", where)
@@ -469,11 +476,8 @@ def display_unit(kind: str, system: str) -> str:
 
 
 def default_unit(kind: str, system: str) -> str:
-    """Unit for a bare number typed on the command line in ``system``.
-
-    Same as the display unit, except that short lengths are typed in the
-    display unit of ``length`` for the length kind.
-    """
+    """Unit for a bare number typed on the command line in ``system``: the display
+    unit of the kind (``short_length``: mm or in; ``length``: m or ft)."""
     return display_unit(kind, system)
 
 

@@ -209,7 +209,7 @@ def destress_cmd(
     spacing, echo_sp = _opt(marks, "marks", "length", job_data, system)
     cap, echo_cap = _opt(tensor_capacity, "tensor_capacity", "force", job_data, system)
     mpl, echo_mpl = _opt(max_pull, "max_pull", "length", job_data, system)
-    obs, echo_obs = _opt(observed_movement, "observed_movement", "length", job_data, system)
+    obs, echo_obs = _opt(observed_movement, "observed_movement", "short_length", job_data, system)
     at, echo_at = _opt(at_mark, "at_mark", "length", job_data, system)
     site_name = _opt(site, "site", None, job_data, system)[0]
     weld_text = _opt(weld, "weld", None, job_data, system)[0]

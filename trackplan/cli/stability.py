@@ -122,11 +122,11 @@ def stability_cmd(
 
     if radius is not None:
         take(radius, "length", "--radius", "radius_m")
-    take(misalignment, "length", "--misalignment", "misalignment_m", allow_zero=True)
+    take(misalignment, "short_length", "--misalignment", "misalignment_m", allow_zero=True)
     take(misalignment_length, "length", "--misalignment-length", "misalignment_length_m")
     take(peak_resistance, "force_per_length", "--peak-resistance", "peak_resistance_N_per_m")
     take(limit_resistance, "force_per_length", "--limit-resistance", "limit_resistance_N_per_m", allow_zero=True)
-    take(peak_displacement, "length", "--peak-displacement", "peak_displacement_m")
+    take(peak_displacement, "short_length", "--peak-displacement", "peak_displacement_m")
     take(lateral_stiffness, "stiffness_per_area", "--lateral-stiffness", "lateral_stiffness_N_per_m2")
     if longitudinal_resistance is not None:
         if longitudinal_resistance.strip().lower() == "rigid":
