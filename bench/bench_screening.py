@@ -25,7 +25,7 @@ from pathlib import Path
 import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
-RECORDS = ["kestrel_plains_hourly.csv.gz", "gullhaven_quay_hourly.csv.gz", "dunmere_sands_daily.csv.gz"]
+RECORDS = ["kestrel_plains_hourly.csv.gz", "gullhaven_quay_hourly.csv.gz", "quennick_sands_daily.csv.gz"]
 
 
 def make_network(folder: Path, n: int, seed: int = 11) -> Path:

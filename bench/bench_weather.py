@@ -48,7 +48,7 @@ def main() -> None:
         cases = [
             ("30 y hourly, gzip CSV (sample)", hourly),
             ("30 y hourly, plain CSV, degF", plain),
-            ("30 y daily, gzip CSV (sample)", samples["dunmere_sands"]),
+            ("30 y daily, gzip CSV (sample)", samples["quennick_sands"]),
             ("TMY3 Greensboro (pvlib file)", Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"),
         ]
         read_record(hourly)  # warm-up (imports)

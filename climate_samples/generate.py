@@ -20,7 +20,7 @@ key                climate           step    columns
 kestrel_plains     hot continental   hourly  air temperature, GHI, wind (10 m)
 gullhaven_quay     mild maritime     hourly  air temperature, GHI, wind (10 m)
                    (southern hemisphere)
-dunmere_sands      hot arid          daily   tmax, tmin
+quennick_sands      hot arid          daily   tmax, tmin
 =================  ================  ======  ==================================
 
 All cover 1995-01-01 to 2024-12-31 (30 years) in local standard time.
@@ -150,7 +150,7 @@ STATIONS = (
             dtr_clear=10.0, dtr_cloudy=4.5, cloud_summer=0.55, cloud_winter=0.65,
             hw_rate=0.5, hw_days=(1, 3), hw_K=(5.0, 9.0), hw_window=35,
             wind_mean=6.0, wind_season=0.10, wind_diurnal=0.15),
-    Station("dunmere_sands", "Dunmere Sands", "hot arid", False,
+    Station("quennick_sands", "Quennick Sands", "hot arid", False,
             32.40, -112.90, 390.0, -7.0,
             mean_C=22.5, amp_K=10.0, peak_doy=195, sd_winter=2.6, sd_summer=1.8, phi=0.7,
             dtr_clear=17.0, dtr_cloudy=10.0, cloud_summer=0.15, cloud_winter=0.25,

@@ -75,7 +75,7 @@ def test_json_hourly_30_years():
 
 
 def test_json_daily_record_gev():
-    r = _run(SAMPLES / "dunmere_sands_daily.csv.gz", "--distribution", "gev", "--return-period", "25", "--json")
+    r = _run(SAMPLES / "quennick_sands_daily.csv.gz", "--distribution", "gev", "--return-period", "25", "--json")
     assert r.exit_code == 0, r.output
     js = json.loads(r.stdout)
     assert js["design_basis"] == "gev" and js["return_period_years"] == 25.0
@@ -85,7 +85,7 @@ def test_json_daily_record_gev():
 
 
 def test_rule_of_thumb_method_on_daily_record():
-    r = _run(SAMPLES / "dunmere_sands_daily.csv.gz", "--method", "air-plus-30F", "--json")
+    r = _run(SAMPLES / "quennick_sands_daily.csv.gz", "--method", "air-plus-30F", "--json")
     assert r.exit_code == 0, r.output
     js = json.loads(r.stdout)
     for a in js["annual"]:
@@ -144,7 +144,7 @@ def test_bad_options_exit_2(small_hourly, args, needle):
 
 
 def test_heat_balance_on_daily_record_exit_2():
-    r = _run(SAMPLES / "dunmere_sands_daily.csv.gz", "--method", "heat-balance")
+    r = _run(SAMPLES / "quennick_sands_daily.csv.gz", "--method", "heat-balance")
     assert r.exit_code == 2
     assert "daily-extremes" in r.output
 

@@ -456,7 +456,7 @@ def test_ghcn_duplicate_and_bad_value(tmp_path):
 
 def test_sample_records_read_clean_and_span_30_years():
     found = sample_records()
-    assert set(found) == {"kestrel_plains", "gullhaven_quay", "dunmere_sands"}
+    assert set(found) == {"kestrel_plains", "gullhaven_quay", "quennick_sands"}
     steps = {}
     for key, path in found.items():
         data, meta = read_record(path)
@@ -475,7 +475,7 @@ def test_sample_records_read_clean_and_span_30_years():
         else:
             assert set(data.columns) == {"tmax_C", "tmin_C"}
             assert (data["tmax_C"] > data["tmin_C"]).all()
-    assert steps == {"kestrel_plains": "hourly", "gullhaven_quay": "hourly", "dunmere_sands": "daily"}
+    assert steps == {"kestrel_plains": "hourly", "gullhaven_quay": "hourly", "quennick_sands": "daily"}
 
 
 def test_sample_climates_are_distinct():
@@ -484,7 +484,7 @@ def test_sample_climates_are_distinct():
     rec = {k: read_record(p)[0] for k, p in sample_records().items()}
     kp = rec["kestrel_plains"]["air_temperature_C"]
     gq = rec["gullhaven_quay"]["air_temperature_C"]
-    ds = rec["dunmere_sands"]
+    ds = rec["quennick_sands"]
     kp_m = kp.groupby(kp.index.month).mean()
     gq_m = gq.groupby(gq.index.month).mean()
     assert kp_m.max() - kp_m.min() > 20 and gq_m.max() - gq_m.min() < 12
@@ -502,7 +502,7 @@ def test_generator_reproduces_daily_sample():
         spec.loader.exec_module(gen)
     finally:
         del sys.modules[spec.name]
-    i = [s.key for s in gen.STATIONS].index("dunmere_sands")
+    i = [s.key for s in gen.STATIONS].index("quennick_sands")
     st = gen.STATIONS[i]
     data = gen.render(st, np.random.default_rng(gen.SEED + i))
     assert data == (ROOT / "climate_samples" / gen.file_name(st)).read_bytes()

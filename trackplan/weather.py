@@ -376,7 +376,7 @@ SOURCE_FORMATS = ("trackplan-csv", "tmy3", "epw", "ghcn-daily-csv")
 SAMPLE_FILES = {
     "kestrel_plains": "kestrel_plains_hourly.csv.gz",
     "gullhaven_quay": "gullhaven_quay_hourly.csv.gz",
-    "dunmere_sands": "dunmere_sands_daily.csv.gz",
+    "quennick_sands": "quennick_sands_daily.csv.gz",
 }
 
 
@@ -387,7 +387,7 @@ def sample_records() -> dict[str, Path]:
     -------
     dict
         Key (``kestrel_plains``: hot continental, hourly; ``gullhaven_quay``:
-        mild maritime, southern hemisphere, hourly; ``dunmere_sands``: hot
+        mild maritime, southern hemisphere, hourly; ``quennick_sands``: hot
         arid, daily max/min) -> path of the ``.csv.gz`` file, readable with
         :func:`read_record`.
     """
