@@ -171,7 +171,8 @@ class Assessor:
                                               years=meta.get("years"))
             self._design[dkey] = (design, _hot_month(daily))
         design, month = self._design[dkey]
-        warnings = list(meta.get("warnings", [])) + list(daily.attrs.get("warnings", [])) + list(design.warnings)
+        warnings = list(dict.fromkeys(list(meta.get("warnings", [])) + list(daily.attrs.get("warnings", []))
+                                      + list(design.warnings)))
         return ClimateResult(design, daily, daily.attrs.get("method", section.rail_temperature_method),
                              str(meta.get("station", section.climate_path.stem)), month, warnings)
 

@@ -543,6 +543,11 @@ class DestressPlan:
             "warnings": list(self.warnings),
             "warning_codes": list(self.warning_codes),
         }
+        if not self.stretch_possible and self.mode in ("free", "restrained"):
+            # nothing to cut, pull or mark now: the warnings say what can be done instead
+            out["cut_length_mm"] = None
+            out["tensor_force_per_rail_kN"] = None
+            out["marks"] = []
         if self.mode == "repair":
             out["removed_length_mm"] = None if self.removed_length_m is None else self.removed_length_m * 1e3
             out["opening_mm"] = self.opening_m * 1e3

@@ -169,6 +169,10 @@ def load_user_profiles(path: str | Path) -> dict[str, RailProfile]:
         data = tomllib.loads(path.read_text(encoding="utf-8"))
     except FileNotFoundError:
         raise InputError("file not found", str(path)) from None
+    except IsADirectoryError:
+        raise InputError("is a folder; give a TOML file of profiles", str(path)) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read the file ({exc})", str(path)) from None
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML ({exc})", str(path)) from None
     tables = data.get("profiles")

@@ -64,6 +64,10 @@ def write_atomic(path: str | Path, writer: Callable[[Path], None], inputs: Itera
     tmp_path = Path(tmp)
     try:
         writer(tmp_path)
+        # mkstemp makes the file private (0600); give it the usual mode for new files
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp_path, 0o666 & ~umask)
         os.replace(tmp_path, path)
     except BaseException:
         tmp_path.unlink(missing_ok=True)

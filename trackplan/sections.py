@@ -356,10 +356,14 @@ def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
     if not isinstance(clim, str):
         raise InputError("expected a path to a climate record (relative to the section file)", f.w("climate"))
     climate_path = (file.parent / clim).resolve()
+    if climate_path.is_dir():
+        raise InputError(f"{climate_path} is a folder; give the climate record file", f.w("climate"))
     if not climate_path.is_file():
         raise InputError(f"climate record not found: {climate_path}", f.w("climate"))
 
     radius = f.quantity("radius", "length")
+    if radius is not None and radius <= 0:
+        raise InputError("a curve radius must be positive (omit it for tangent track)", f.w("radius"))
     if radius is not None and radius < 100.0:
         raise InputError(f"radius {radius:.0f} m is below 100 m; trackplan's stability model is not for such "
                          "tight curves", f.w("radius"))

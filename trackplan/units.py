@@ -228,7 +228,7 @@ DISPLAY = {
 _LABEL = {
     "degC": "°C",
     "degF": "°F",
-    "delta_degF": "°F",
+    "delta_degF": "Δ°F",
     "K": "K",
     "cm**2": "cm²",
     "in**2": "in²",

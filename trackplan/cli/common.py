@@ -79,6 +79,9 @@ def command(name: str | None = None, **kwargs):
                 return fn(*args, **kw)
             except InputError as exc:
                 fail(exc)
+            except (IsADirectoryError, PermissionError, FileNotFoundError, UnicodeDecodeError) as exc:
+                # a file the user named could not be read or written: a usage problem, not a crash
+                fail(InputError(f"cannot use the file ({exc})"))
 
         app.command(name, **kwargs)(wrapper)
         return fn

@@ -85,6 +85,10 @@ def read_job(path: Path) -> dict:
         data = tomllib.loads(Path(path).read_text(encoding="utf-8"))
     except FileNotFoundError:
         raise InputError("file not found", f"--job {path}") from None
+    except IsADirectoryError:
+        raise InputError("is a folder; give a TOML job file", f"--job {path}") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read the file ({exc})", f"--job {path}") from None
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML ({exc})", f"--job {path}") from None
     table = data.get("destress")
@@ -295,7 +299,8 @@ def destress_cmd(
     for k, v in figures:
         t_fig.add_row(k, v)
     console.print(t_fig)
-    console.print(_marks_table(plan, s))
+    if plan.stretch_possible or plan.mode == "repair":
+        console.print(_marks_table(plan, s))
     if plan.achieved_neutral_C is not None:
         console.print(
             f"What-if: {_mm(plan.observed_movement_m, s)} observed at {units.fmt(plan.at_mark_m, 'length', s, 1)} "
@@ -346,9 +351,13 @@ def _figures(p: destressing.DestressPlan, s: str) -> list[tuple[str, str]]:
         rows.append(("Opening between the freed rail ends", _mm(p.opening_m, s)))
         rows.append(("Closure rail length to cut", units.fmt(p.closure_length_m, "short_length", s, 0 if s == "si" else 2)))
         rows.append(("Opening minus closure", _mm(p.cut_length_m, s)))
+    elif not p.stretch_possible:
+        rows.append(("Length to cut out", "n/a: rail hotter than target (see the warnings)"))
     else:
         rows.append(("Length to cut out" if p.cut_length_m >= 0 else "Rail to add", _mm(abs(p.cut_length_m), s)))
-    if p.mode != "heating":
+    if p.mode != "heating" and not p.stretch_possible and p.mode != "repair":
+        rows.append(("Tensor pull per rail", "n/a"))
+    elif p.mode != "heating":
         cap = ""
         if p.tensor_capacity_N:
             cap = f" of {units.fmt(p.tensor_capacity_N, 'force', s, 0)} " + ("(within capacity)" if p.within_capacity else "(BEYOND CAPACITY)")

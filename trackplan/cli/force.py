@@ -22,6 +22,10 @@ from trackplan.cli.common import (
 from trackplan.errors import InputError
 from trackplan import CAUTION
 
+#: Plausible neutral temperatures [degC] (as section files) and rail temperatures [degC].
+NEUTRAL_RANGE_C = (-10.0, 60.0)
+RAIL_RANGE_C = (-60.0, 90.0)
+
 
 def resolve_steel(profile: rails.RailProfile, steel: Optional[str], E: Optional[str], alpha: Optional[str]) -> thermal.Steel:
     """Steel constants for a run: the preset of the profile family, a named preset, then overrides."""
@@ -71,6 +75,9 @@ def force_cmd(
     profile = rails.get_profile(rail, extra)
     st = resolve_steel(profile, steel, youngs_modulus, alpha)
     t_n, echo_n = parse_option(neutral, "temperature", "--neutral", system)
+    if not NEUTRAL_RANGE_C[0] <= t_n <= NEUTRAL_RANGE_C[1]:
+        raise InputError(f"{echo_n} is outside -10..60 degC, the range of neutral temperatures in practice "
+                         "(a unit slip? e.g. '27 degC' or '95 degF')", "--neutral")
     r = None
     if resistance is not None:
         r, _ = parse_option(resistance, "force_per_length", "--resistance", system)
@@ -80,6 +87,9 @@ def force_cmd(
     echoes = []
     for i, text in enumerate(at):
         t, echo = parse_option(text, "temperature", f"--at (#{i + 1})", system)
+        if not RAIL_RANGE_C[0] <= t <= RAIL_RANGE_C[1]:
+            raise InputError(f"{echo} is outside -60..90 degC, the range rail temperatures reach "
+                             "(a unit slip? e.g. '60 degC' or '140 degF')", f"--at (#{i + 1})")
         echoes.append(echo)
         rise = t - t_n
         P = float(thermal.thermal_force(rise, st.E_Pa, profile.area_m2, st.alpha_per_K))
