@@ -159,11 +159,16 @@ def test_design_extremes_gumbel_30_years():
     de = ex.design_extremes(d, 50, "gumbel", n_boot=200)
     assert de.design_basis == "gumbel" and de.years == 30
     mu, beta = stats.gumbel_r.fit(de.annual.max_rail_temperature_C)
-    assert de.design_max_rail_temperature_C == pytest.approx(stats.gumbel_r.ppf(0.98, mu, beta), abs=1e-6)
+    level_max = stats.gumbel_r.ppf(0.98, mu, beta)  # scipy's own ML fit and quantile (reference library)
+    assert float(de.max_fit.return_level(50)) == pytest.approx(level_max, abs=1e-6)
+    # the design value is never milder than the record: max(return level, recorded maximum)
+    assert de.design_max_rail_temperature_C == pytest.approx(max(level_max, de.annual.max_rail_temperature_C.max()))
     lo, hi = de.max_ci_C
-    assert lo < de.design_max_rail_temperature_C < hi
+    assert lo < level_max < hi
+    level_min = float(de.min_fit.return_level(50))
     lo, hi = de.min_ci_C
-    assert lo < de.design_min_rail_temperature_C < hi
+    assert lo < level_min < hi
+    assert de.design_min_rail_temperature_C == pytest.approx(min(level_min, de.annual.min_rail_temperature_C.min()))
     assert de.design_min_rail_temperature_C < de.annual.min_rail_temperature_C.median()
     assert not any("short" in w for w in de.warnings)
     js = de.as_json("Somewhere")
@@ -175,7 +180,7 @@ def test_design_extremes_gumbel_30_years():
     rl = de.return_levels([2, 50, 100])
     assert rl.max_rail_temperature_C.is_monotonic_increasing
     assert rl.min_rail_temperature_C.is_monotonic_decreasing
-    assert rl.max_rail_temperature_C.iloc[1] == pytest.approx(de.design_max_rail_temperature_C)
+    assert rl.max_rail_temperature_C.iloc[1] == pytest.approx(level_max)
 
 
 def test_design_extremes_gev():
@@ -225,3 +230,15 @@ def test_plotting_positions_gringorten():
     """Gringorten (1963): (i - 0.44)/(n + 0.12)."""
     p = ex.plotting_positions(10)
     assert p[0] == pytest.approx(0.56 / 10.12) and p[-1] == pytest.approx(9.56 / 10.12)
+
+
+def test_design_never_milder_than_the_record():
+    # One year far colder and hotter than the rest: its extremes lie beyond the 50-year levels the
+    # other 29 years imply, so the design values are the recorded ones, with a warning each.
+    d = _daily(years=30)
+    d.loc["2005-01-15", "rail_min_C"] = -60.0
+    d.loc["2005-07-15", "rail_max_C"] = 95.0
+    de = ex.design_extremes(d, 50, "gumbel", n_boot=50)
+    assert float(de.min_fit.return_level(50)) > -60.0 and float(de.max_fit.return_level(50)) < 95.0
+    assert de.design_min_rail_temperature_C == -60.0 and de.design_max_rail_temperature_C == 95.0
+    assert sum("is the recorded value" in w for w in de.warnings) == 2

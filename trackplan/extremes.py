@@ -706,6 +706,16 @@ def design_extremes(daily, return_period_years: float = 50, distribution: str = 
     dmin = float(fmin.return_level(rp))
     cmax = fmax.interval(rp)
     cmin = fmin.interval(rp)
+    # A design value is never milder than what the record already shows (about 45 % of 30-year
+    # records hold a year beyond their own 50-year level): planning takes the recorded extreme then.
+    if obs_max > dmax:
+        warnings.append(f"the highest rail temperature in the record, {obs_max:.1f} degC, is above the {rp:g}-year "
+                        f"return level {dmax:.1f} degC: the design maximum is the recorded value")
+        dmax = obs_max
+    if obs_min < dmin:
+        warnings.append(f"the lowest rail temperature in the record, {obs_min:.1f} degC, is below the {rp:g}-year "
+                        f"return level {dmin:.1f} degC: the design minimum is the recorded value")
+        dmin = obs_min
     if distribution == "gev":
         for fit, label in ((fmax, "maxima"), (fmin, "minima")):
             xi = fit.params[0]
