@@ -37,13 +37,15 @@ def test_act_heat_with_destress_wording():
     r = _chk(latest_neutral_C=20.0)  # current 15, rise 37 > 30
     assert r.verdict == "act"
     assert r.heat_margin_K == pytest.approx(-7.0)
-    assert r.reasons[0].startswith("destress to 35 degC before June")
+    assert r.reasons[0].startswith("destress to 35 °C before June")
+    assert r.reasons_in("us")[0].startswith("destress to 95 °F before June")
 
 
 def test_act_cold_gap():
     r = _chk(latest_neutral_C=45.0, design_max_C=40.0)  # cold rise -55 K: gap 64.4 mm > 50
     assert r.verdict == "act"
     assert any("pull-apart gap 64 mm exceeds 50 mm" in s for s in r.reasons)
+    assert any("pull-apart gap 2.5 in exceeds 2.0 in" in s for s in r.reasons_in("us"))
 
 
 def test_ok_and_unknown_basis_watch():

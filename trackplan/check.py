@@ -30,7 +30,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from trackplan import thermal
+from trackplan import thermal, units
 
 VERDICTS = ("act", "watch", "ok")
 DEFAULT_WATCH_FRACTION = 0.8
@@ -41,7 +41,7 @@ class CheckResult:
     """Pre-summer figures and verdict for one section (SI; units in names)."""
 
     verdict: str
-    reasons: list[str]
+    reason_items: tuple  # of Reason: the reasons in words, formatted in any unit system
     current_neutral_temperature_C: float
     cold_neutral_temperature_C: float
     design_max_rail_temperature_C: float
@@ -56,6 +56,31 @@ class CheckResult:
     gap_limit_m: float
     tension_stress_limit_Pa: float
     severity: float = field(default=0.0)  # smallest margin / limit; lower is worse
+
+    @property
+    def reasons(self) -> list[str]:
+        """The reasons in words, SI (as in JSON)."""
+        return self.reasons_in("si")
+
+    def reasons_in(self, system: str) -> list[str]:
+        """The reasons in words in the unit system ``si`` or ``us``."""
+        return [r.text(system) for r in self.reason_items]
+
+
+@dataclass(frozen=True)
+class Reason:
+    """A reason in words with its figures kept in SI, formatted when printed.
+
+    ``template`` has ``{name}`` fields; ``values`` holds ``(name, SI value, kind, digits)``.
+    """
+
+    template: str
+    values: tuple = ()
+
+    def text(self, system: str = "si") -> str:
+        # inches and ksi are coarser than mm and MPa: one more digit in US units
+        extra = lambda k: 1 if system == "us" and k in ("short_length", "stress") else 0
+        return self.template.format(**{n: units.fmt(v, k, system, d + extra(k)) for n, v, k, d in self.values})
 
 
 def check_section(
@@ -117,40 +142,45 @@ def check_section(
     s_cold = float(thermal.thermal_stress(cold_rise, E_Pa, alpha_per_K))
     gap = float(thermal.pull_apart_gap(p_cold, E_Pa, area_m2, resistance_N_per_m))
 
-    act: list[str] = []
-    watch: list[str] = []
+    act: list[Reason] = []
+    watch: list[Reason] = []
+    T = lambda name, v, d=1: (name, v, "temperature", d)
+    dT = lambda name, v: (name, v, "temperature_difference", 1)
+    mm = lambda name, v: (name, v, "short_length", 0)
     when = f" before {destress_before}" if destress_before else " before the hot season"
     if margin < 0:
         if target_C is not None:
-            act.append(
-                f"destress to {target_C:.0f} degC{when}: at the design rail maximum {design_max_C:.1f} degC the rise "
-                f"above the current neutral estimate {t_cur:.1f} degC is {rise:.1f} K, {-margin:.1f} K over the "
-                f"allowable {allowable_rise_K:.1f} K"
-            )
+            act.append(Reason(
+                "destress to {target}" + when + ": at the design rail maximum {tmax} the rise above the current "
+                "neutral estimate {tcur} is {rise}, {over} over the allowable {allow}",
+                (T("target", target_C, 0), T("tmax", design_max_C), T("tcur", t_cur), dT("rise", rise),
+                 dT("over", -margin), dT("allow", allowable_rise_K))))
         else:
-            act.append(
-                f"rise {rise:.1f} K exceeds the allowable {allowable_rise_K:.1f} K at {design_max_C:.1f} degC and no "
-                "neutral temperature satisfies both heat and cold limits: strengthen the track or plan a heat "
-                "speed restriction under local rules"
-            )
+            act.append(Reason(
+                "rise {rise} exceeds the allowable {allow} at {tmax} and no neutral temperature satisfies both heat "
+                "and cold limits: strengthen the track or plan a heat speed restriction under local rules",
+                (dT("rise", rise), dT("allow", allowable_rise_K), T("tmax", design_max_C))))
     elif rise >= watch_fraction * allowable_rise_K:
-        watch.append(
-            f"rise {rise:.1f} K at {design_max_C:.1f} degC is {rise / allowable_rise_K:.0%} of the allowable "
-            f"{allowable_rise_K:.1f} K (margin {margin:.1f} K): keep on the hot-weather watch list"
-        )
+        watch.append(Reason(
+            "rise {rise} at {tmax} is " + f"{rise / allowable_rise_K:.0%}" + " of the allowable {allow} "
+            "(margin {margin}): keep on the hot-weather watch list",
+            (dT("rise", rise), T("tmax", design_max_C), dT("allow", allowable_rise_K), dT("margin", margin))))
     if gap > gap_limit_m:
-        act.append(f"pull-apart gap {gap * 1e3:.0f} mm exceeds {gap_limit_m * 1e3:.0f} mm at {design_min_C:.0f} degC")
+        act.append(Reason("pull-apart gap {gap} exceeds {limit} at {tmin}",
+                          (mm("gap", gap), mm("limit", gap_limit_m), T("tmin", design_min_C, 0))))
     elif gap >= watch_fraction * gap_limit_m:
-        watch.append(f"pull-apart gap {gap * 1e3:.0f} mm is close to the {gap_limit_m * 1e3:.0f} mm limit at "
-                     f"{design_min_C:.0f} degC")
+        watch.append(Reason("pull-apart gap {gap} is close to the {limit} limit at {tmin}",
+                            (mm("gap", gap), mm("limit", gap_limit_m), T("tmin", design_min_C, 0))))
+    st = lambda name, v: (name, v, "stress", 0)
     if -s_cold > tension_stress_limit_Pa:
-        act.append(f"tension stress {-s_cold / 1e6:.0f} MPa exceeds {tension_stress_limit_Pa / 1e6:.0f} MPa at "
-                   f"{design_min_C:.0f} degC")
+        act.append(Reason("tension stress {s} exceeds {limit} at {tmin}",
+                          (st("s", -s_cold), st("limit", tension_stress_limit_Pa), T("tmin", design_min_C, 0))))
     elif -s_cold >= watch_fraction * tension_stress_limit_Pa:
-        watch.append(f"tension stress {-s_cold / 1e6:.0f} MPa is close to the {tension_stress_limit_Pa / 1e6:.0f} MPa "
-                     f"limit at {design_min_C:.0f} degC")
+        watch.append(Reason("tension stress {s} is close to the {limit} limit at {tmin}",
+                            (st("s", -s_cold), st("limit", tension_stress_limit_Pa), T("tmin", design_min_C, 0))))
     if neutral_basis in ("unknown", "estimated"):
-        watch.append(f"neutral temperature is {neutral_basis}, not established by a record or measurement: measure it")
+        watch.append(Reason(f"neutral temperature is {neutral_basis}, not established by a record or measurement: "
+                            "measure it", ()))
 
     if act:
         verdict, reasons = "act", act + watch
@@ -158,7 +188,8 @@ def check_section(
         verdict, reasons = "watch", watch
     else:
         verdict = "ok"
-        reasons = [f"heat margin {margin:.1f} K; break gap {gap * 1e3:.0f} mm within {gap_limit_m * 1e3:.0f} mm"]
+        reasons = [Reason("heat margin {margin}; break gap {gap} within {limit}",
+                          (dT("margin", margin), mm("gap", gap), mm("limit", gap_limit_m)))]
     severity = min(
         margin / allowable_rise_K if allowable_rise_K > 0 else -1.0,
         (gap_limit_m - gap) / gap_limit_m,
@@ -166,7 +197,7 @@ def check_section(
     )
     return CheckResult(
         verdict=verdict,
-        reasons=reasons,
+        reason_items=tuple(reasons),
         current_neutral_temperature_C=t_cur,
         cold_neutral_temperature_C=latest_neutral_C,
         design_max_rail_temperature_C=design_max_C,

@@ -227,7 +227,7 @@ def check_html(assessments, pngs: dict[str, bytes], caution: str, title: str = "
             f"<td>{F(c.max_compression_force_per_rail_N)}</td><td>{T(c.design_min_rail_temperature_C)}</td>"
             f"<td>{F(c.max_tension_force_per_rail_N)}</td><td>{L(c.pull_apart_gap_m)}</td>"
             f"<td>{T(t.target_neutral_temperature_C)}</td>"
-            f"<td><small>{'<br>'.join(e(r) for r in c.reasons)}</small></td></tr>"
+            f"<td><small>{'<br>'.join(e(r) for r in c.reasons_in(system))}</small></td></tr>"
         )
     figs = "".join(
         f"<figure><img alt='force envelope {e(sid)}' src='data:image/png;base64,{base64.b64encode(b).decode()}'>"

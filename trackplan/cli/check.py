@@ -71,7 +71,7 @@ def print_checks(results, s: str) -> None:
     console.print(table)
     for a in results:
         c = a.check
-        console.print(f"[{_STYLE[c.verdict]}]{a.section.id} {c.verdict}[/]: " + "; ".join(escape(r) for r in c.reasons),
+        console.print(f"[{_STYLE[c.verdict]}]{a.section.id} {c.verdict}[/]: " + "; ".join(escape(r) for r in c.reasons_in(s)),
                       highlight=False)
 
 

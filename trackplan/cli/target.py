@@ -48,9 +48,10 @@ def target_json(a) -> dict:
 def print_targets(results, s: str) -> None:
     """Terminal table of targets."""
     table = Table(title="Recommended neutral temperature")
-    for head in ("section", "design max " + f"({units.label(units.display_unit('temperature', s))})",
-                 "design min", units.header("allowable rise", "temperature_difference", s),
-                 "feasible window", "target", "laying range", "governs (cold)"):
+    for head in ("section", units.header("design max", "temperature", s), units.header("design min", "temperature", s),
+                 units.header("allowable rise", "temperature_difference", s),
+                 units.header("feasible window", "temperature", s), units.header("target", "temperature", s),
+                 units.header("laying range", "temperature", s), "governs (cold)"):
         table.add_column(head, justify="left" if head in ("section", "governs (cold)") else "right", overflow="fold")
     T = lambda v: units.number(v, "temperature", s)
     for a in results:
