@@ -1028,9 +1028,11 @@ def annual_frame(result: ScreenResult):
 def _day_json(d: Day | None) -> dict | None:
     if d is None:
         return None
+    # on the cold side the limit is a (negative) rise at which tension or the break gap reaches its limit
+    limit_key = "cold_limit_rise_K" if d.side == "cold" else "allowable_rise_K"
     return {"date": d.date.isoformat(), "side": d.side, "level": d.level, "rail_temperature_C": d.rail_temperature_C,
             "neutral_temperature_C": d.neutral_temperature_C, "rise_K": d.rise_K,
-            "allowable_rise_K": d.allowable_rise_K, "margin_K": d.margin_K}
+            limit_key: d.allowable_rise_K, "margin_K": d.margin_K}
 
 
 def section_json(s: SectionScreen) -> dict:

@@ -37,6 +37,9 @@ def demo_cmd(
     from trackplan.cli.network import load_and_assess
     from trackplan.cli.target import print_targets
 
+    from trackplan import reports
+
+    reports.prepare_out_dir(out)  # a bad --out is said before the work, not after
     net = example_network()
     console.print(f"[bold]trackplan demo[/]: the example network of a fictional railway ({net.name}), "
                   "synthetic climates of three invented stations.", highlight=False)

@@ -36,7 +36,7 @@ def _positive_option(text, kind, option, system, allow_zero=False):
     return value, echo
 
 
-def _plot(result, out: Path, system: str):
+def _plot(result, out: Path, system: str, inputs=()):
     """PNG of the equilibrium curve with the critical points and the allowable rise."""
     from trackplan import reports
 
@@ -70,7 +70,7 @@ def _plot(result, out: Path, system: str):
     ax.set_xlim(left=0)
     ax.set_ylim(bottom=0)
     ax.legend(loc="best", fontsize=8)
-    return reports.save_figure(out / "stability_curve.png", fig)
+    return reports.save_figure(out / "stability_curve.png", fig, inputs)
 
 
 @command("stability")
@@ -159,11 +159,12 @@ def stability_cmd(
         from trackplan import reports
         import pandas as pd
 
-        out_dir = reports.prepare_out_dir(out, [profiles_file] if profiles_file else [])
-        files.append(_plot(result, out_dir, s))
+        inputs = [profiles_file] if profiles_file else []
+        out_dir = reports.prepare_out_dir(out, inputs)
+        files.append(_plot(result, out_dir, s, inputs))
         frame = pd.DataFrame({"lateral_displacement_mm": result.curve_displacement_m * 1e3,
                               "rise_K": result.curve_rise_K})
-        files.append(reports.write_csv(out_dir / "stability_curve.csv", frame))
+        files.append(reports.write_csv(out_dir / "stability_curve.csv", frame, inputs))
 
     if as_json:
         data = {"rail": profile.name, "sleeper": sleeper, "ballast": ballast, "shoulder": shoulder}
