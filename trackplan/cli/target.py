@@ -52,7 +52,8 @@ def print_targets(results, s: str) -> None:
                  units.header("allowable rise", "temperature_difference", s),
                  units.header("feasible window", "temperature", s), units.header("target", "temperature", s),
                  units.header("laying range", "temperature", s), "governs (cold)"):
-        table.add_column(head, justify="left" if head in ("section", "governs (cold)") else "right", overflow="fold")
+        table.add_column(head, justify="left" if head in ("section", "governs (cold)") else "right", overflow="fold",
+                         no_wrap=head == "governs (cold)", min_width=14 if head == "governs (cold)" else None)
     T = lambda v: units.number(v, "temperature", s)
     for a in results:
         t = a.target
