@@ -6,7 +6,9 @@ azimuths drawn uniformly over 0-360 degrees, four standard track constructions
 (rail and sleeper), eight design radii (tangent included), two ballast states,
 shade, the default misalignment, neutral temperatures 25-40 degC and dated events (tamping, ballast work, destressing, renewal), then screens every
 section from scratch (new Assessor, empty rail-temperature and stability
-caches) and prints the time of each step for 100, 1,000 and 5,000 sections.
+caches) and prints, for 100, 1,000 and 5,000 sections, the wall time of the whole
+``trackplan screen`` command (with and without ``--out``) and then the time of
+each step run one after the other in one process.
 Target (issue 6): 1,000 sections x 30 years in at most 30 s, cost growing
 linearly with the number of sections.
 
@@ -120,11 +122,35 @@ def run(n: int, folder: Path) -> dict:
     return t
 
 
+def run_command(n: int, folder: Path, with_out: bool) -> float:
+    """Wall time of the real ``trackplan screen`` command (in-process, caches emptied first):
+    what a user waits for, with the record groups shared out to worker processes."""
+    from typer.testing import CliRunner
+
+    from trackplan import railtemp, stability
+    from trackplan.cli import app
+
+    net = make_network(folder, n)
+    railtemp.clear_prepared_cache()
+    stability.clear_cache()
+    args = ["screen", str(net), "--json"] + (["--out", str(folder / f"cmd_{n}")] if with_out else [])
+    t0 = time.perf_counter()
+    res = CliRunner().invoke(app, args)
+    dt = time.perf_counter() - t0
+    if res.exit_code != 0:
+        raise SystemExit(f"screen failed ({res.exit_code}): {res.output[-1500:]}")
+    return dt
+
+
 def main() -> None:
     sizes = [int(a) for a in sys.argv[1:]] or [100, 1000, 5000]
     with tempfile.TemporaryDirectory() as tmp:
         rows = []
         for n in sizes:
+            t_cmd = run_command(n, Path(tmp), with_out=False)
+            t_out = run_command(n, Path(tmp), with_out=True)
+            print(f"{n:>5} sections x 30 years: `trackplan screen` {t_cmd:.1f} s, with --out {t_out:.1f} s "
+                  "(whole command, from scratch)", flush=True)
             t = run(n, Path(tmp))
             keys = t.pop("_keys")
             rows.append((n, t))
