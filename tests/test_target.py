@@ -58,10 +58,12 @@ def test_empty_window_said_with_openers():
     assert not r.feasible
     assert r.target_neutral_temperature_C is None and r.feasible_window_C is None
     assert r.shortfall_K == pytest.approx(42.0 - 38.448, abs=1e-2)
-    assert any("allowable rise" in o for o in r.openers)
+    assert any("allowable rise" in str(o) for o in r.openers)
     # resistance needed so the gap at the heat floor is 50 mm: E A (alpha * 52)^2 / 0.05
     need = E * A * (ALPHA * 52.0) ** 2 / 0.05 / 1e3
-    assert any(f"{need:.1f} kN/m" in o for o in r.openers)
+    assert any(f"{need:.1f} kN/m" in str(o) for o in r.openers)
+    # the same words in US units: 3.55 K short = 6.4 delta-degF
+    assert any("6.4 Δ°F more allowable rise" in o.text("us") for o in r.openers)
 
 
 def test_more_allowable_lowers_floor_only():

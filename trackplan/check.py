@@ -67,20 +67,8 @@ class CheckResult:
         return [r.text(system) for r in self.reason_items]
 
 
-@dataclass(frozen=True)
-class Reason:
-    """A reason in words with its figures kept in SI, formatted when printed.
-
-    ``template`` has ``{name}`` fields; ``values`` holds ``(name, SI value, kind, digits)``.
-    """
-
-    template: str
-    values: tuple = ()
-
-    def text(self, system: str = "si") -> str:
-        # inches and ksi are coarser than mm and MPa: one more digit in US units
-        extra = lambda k: 1 if system == "us" and k in ("short_length", "stress") else 0
-        return self.template.format(**{n: units.fmt(v, k, system, d + extra(k)) for n, v, k, d in self.values})
+#: A reason in words (figures in SI, printed in any unit system).
+Reason = units.Phrase
 
 
 def check_section(

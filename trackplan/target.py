@@ -40,6 +40,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+from trackplan import units
+
 #: Default position of the target in the feasible window (0 cold end, 1 hot end).
 DEFAULT_BIAS = 2.0 / 3.0
 
@@ -66,9 +68,9 @@ class TargetResult:
         ``(low, high)`` [degC].
     shortfall_K : float
         By how much the window is empty (0 when feasible) [K].
-    explanation : list of str
-        The reasoning in words.
-    openers : list of str
+    explanation : list of trackplan.units.Phrase
+        The reasoning in words (``str()`` gives SI, ``.text("us")`` US units).
+    openers : list of trackplan.units.Phrase
         When infeasible: what would open the window, with figures.
     """
 
@@ -82,8 +84,8 @@ class TargetResult:
     laying_range_C: tuple[float, float] | None
     shortfall_K: float
     narrow: bool = False
-    explanation: list[str] = field(default_factory=list)
-    openers: list[str] = field(default_factory=list)
+    explanation: list = field(default_factory=list)
+    openers: list = field(default_factory=list)
 
     @property
     def feasible_window_C(self) -> tuple[float, float] | None:
@@ -155,31 +157,37 @@ def recommend_neutral(
     g_ceil = gap_ceiling(design_min_C, gap_limit_m, E_Pa, area_m2, alpha_per_K, resistance_N_per_m)
     hi = min(s_ceil, g_ceil)
     governing = "tension stress" if s_ceil <= g_ceil else "pull-apart gap"
+    P = units.Phrase
+    T = lambda n, v: (n, v, "temperature", 1)
+    dT = lambda n, v: (n, v, "temperature_difference", 1)
     why = [
-        f"heat: design rail maximum {design_max_C:.1f} degC, allowable rise {allowable_rise_K:.1f} K, drift "
-        f"allowance {drift_allowance_K:.1f} K, so the neutral temperature must be at least {lo:.1f} degC",
-        f"cold: design rail minimum {design_min_C:.1f} degC; the tension stress limit "
-        f"{tension_stress_limit_Pa / 1e6:.0f} MPa allows at most {s_ceil:.1f} degC and the pull-apart gap limit "
-        f"{gap_limit_m * 1e3:.0f} mm at most {g_ceil:.1f} degC ({governing} governs)",
+        P("heat: design rail maximum {tmax}, allowable rise {allow}, drift allowance {drift}, so the neutral "
+          "temperature must be at least {lo}",
+          (T("tmax", design_max_C), dT("allow", allowable_rise_K), dT("drift", drift_allowance_K), T("lo", lo))),
+        P("cold: design rail minimum {tmin}; the tension stress limit {slim} allows at most {sc} and the pull-apart "
+          "gap limit {glim} at most {gc} (" + governing + " governs)",
+          (T("tmin", design_min_C), ("slim", tension_stress_limit_Pa, "stress", 0), T("sc", s_ceil),
+           ("glim", gap_limit_m, "short_length", 0), T("gc", g_ceil))),
     ]
     if hi < lo:
         short = lo - hi
         r_need = E_Pa * area_m2 * (alpha_per_K * (lo - design_min_C)) ** 2 / gap_limit_m
         openers = [
-            f"a stronger track: {short:.1f} K more allowable rise (consolidated ballast, full shoulders, heavier "
-            "sleepers, or a verified higher lateral resistance)",
-            f"less drift: a drift allowance {short:.1f} K smaller through neutral temperature monitoring"
+            P("a stronger track: {short} more allowable rise (consolidated ballast, full shoulders, heavier "
+              "sleepers, or a verified higher lateral resistance)", (dT("short", short),)),
+            P("less drift: a drift allowance {short} smaller through neutral temperature monitoring", (dT("short", short),))
             if drift_allowance_K >= short else
-            f"drift allowance cannot close it alone ({drift_allowance_K:.1f} K in use)",
-            "a shorter return period for the design temperatures (accepting more risk), or shade",
+            P("drift allowance cannot close it alone ({drift} in use)", (dT("drift", drift_allowance_K),)),
+            P("a shorter return period for the design temperatures (accepting more risk), or shade"),
         ]
         if governing == "pull-apart gap":
-            openers.append(
-                f"on the cold side: longitudinal resistance of at least {r_need / 1e3:.1f} kN/m per rail "
-                f"(now {resistance_N_per_m / 1e3:.1f}) so a break opens no more than {gap_limit_m * 1e3:.0f} mm "
-                "at the heat floor, or expansion devices / shorter strings with breather arrangements"
-            )
-        why.append(f"the window is empty: the heat floor is {short:.1f} K above the cold ceiling")
+            openers.append(P(
+                "on the cold side: longitudinal resistance of at least {rneed} per rail (now {r}) so a break opens "
+                "no more than {glim} at the heat floor, or expansion devices / shorter strings with breather "
+                "arrangements",
+                (("rneed", r_need, "force_per_length", 1), ("r", resistance_N_per_m, "force_per_length", 1),
+                 ("glim", gap_limit_m, "short_length", 0))))
+        why.append(P("the window is empty: the heat floor is {short} above the cold ceiling", (dT("short", short),)))
         return TargetResult(False, lo, hi, s_ceil, g_ceil, governing, None, None, short, False, why, openers)
 
     width = hi - lo
@@ -188,18 +196,18 @@ def recommend_neutral(
         target = min(max(lo + bias * width, lo + tol), hi - tol)
         rng = (target - tol, target + tol)
         narrow = False
-        why.append(
-            f"window {lo:.1f} to {hi:.1f} degC ({width:.1f} K); target placed {bias:.0%} of the way to the hot end "
-            f"(the neutral temperature tends to fall in service), laying range +/-{tol:.1f} K inside the window"
-        )
+        why.append(P(
+            "window {lo} to {hi} ({width}); target placed " + f"{bias:.0%}" + " of the way to the hot end (the neutral "
+            "temperature tends to fall in service), laying range +/-{tol} inside the window",
+            (T("lo", lo), T("hi", hi), dT("width", width), dT("tol", tol))))
     else:
         target = 0.5 * (lo + hi)
         rng = (lo, hi)
         narrow = True
-        why.append(
-            f"window {lo:.1f} to {hi:.1f} degC is narrower than the laying range +/-{tol:.1f} K: target its middle "
-            "and lay within the window itself; consider a stronger track to widen it"
-        )
+        why.append(P(
+            "window {lo} to {hi} is narrower than the laying range +/-{tol}: target its middle and lay within the "
+            "window itself; consider a stronger track to widen it",
+            (T("lo", lo), T("hi", hi), dT("tol", tol))))
     return TargetResult(True, lo, hi, s_ceil, g_ceil, governing, target, rng, 0.0, narrow, why, [])
 
 

@@ -527,3 +527,28 @@ def header(name: str, kind: str, system: str = "si") -> str:
     """Column header with the display unit, e.g. ``"force per rail (kN)"``
     (parentheses, not brackets, which rich would read as markup)."""
     return f"{name} ({label(display_unit(kind, system))})"
+
+
+@dataclass(frozen=True)
+class Phrase:
+    """Words with figures kept in SI, formatted in a unit system when printed.
+
+    ``template`` has ``{name}`` fields; ``values`` holds ``(name, SI value, kind, digits)``
+    with a display kind of :data:`DISPLAY`. Inches and ksi get one more digit than mm
+    and MPa, being coarser.
+
+    Examples
+    --------
+    >>> Phrase("gap {g} at {t}", (("g", 0.062, "short_length", 0), ("t", -28.0, "temperature", 0))).text("us")
+    'gap 2.4 in at -18 °F'
+    """
+
+    template: str
+    values: tuple = ()
+
+    def text(self, system: str = "si") -> str:
+        extra = lambda k: 1 if system == "us" and k in ("short_length", "stress") else 0
+        return self.template.format(**{n: fmt(v, k, system, d + extra(k)) for n, v, k, d in self.values})
+
+    def __str__(self) -> str:
+        return self.text("si")

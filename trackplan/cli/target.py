@@ -35,8 +35,8 @@ def target_json(a) -> dict:
         "return_period_years": a.climate.design.return_period_years,
         "allowable_rise_K": a.allowable_rise_K,
         "drift_allowance_K": a.section.drift_allowance_K,
-        "explanation": t.explanation,
-        "would_open_window": t.openers,
+        "explanation": [str(x) for x in t.explanation],
+        "would_open_window": [str(x) for x in t.openers],
         "regional_practice": [
             {"name": r.name, "neutral_C": list(r.neutral_C) if r.neutral_C else None, "note": r.note, "source": r.source}
             for r in a.practice
@@ -57,7 +57,8 @@ def print_targets(results, s: str) -> None:
     T = lambda v: units.number(v, "temperature", s)
     for a in results:
         t = a.target
-        win = f"{T(t.heat_floor_C)} – {T(t.cold_ceiling_C)}" if t.feasible else f"[red]empty ({t.shortfall_K:.1f} K short)[/]"
+        short = units.fmt(t.shortfall_K, "temperature_difference", s)
+        win = f"{T(t.heat_floor_C)} – {T(t.cold_ceiling_C)}" if t.feasible else f"[red]empty ({short} short)[/]"
         rng = f"{T(t.laying_range_C[0])} – {T(t.laying_range_C[1])}" if t.laying_range_C else "–"
         table.add_row(a.section.id, T(a.climate.design_max_C), T(a.climate.design_min_C),
                       units.number(a.allowable_rise_K, "temperature_difference", s), win,
@@ -67,9 +68,10 @@ def print_targets(results, s: str) -> None:
         t = a.target
         if not t.feasible:
             console.print(f"[bold red]{a.section.id}[/]: no neutral temperature satisfies both heat and cold limits "
-                          f"({t.shortfall_K:.1f} K short). What would open the window:", highlight=False)
+                          f"({units.fmt(t.shortfall_K, 'temperature_difference', s)} short). What would open the window:",
+                          highlight=False)
             for o in t.openers:
-                console.print(f"  • {o}", highlight=False)
+                console.print(f"  • {o.text(s)}", highlight=False, markup=False)
         elif t.narrow:
             console.print(f"[yellow]{a.section.id}[/]: the window is narrower than the laying range; lay within it.",
                           highlight=False)
