@@ -132,7 +132,9 @@ def print_summary(result, s: str) -> None:
     console.print(
         f"Levels: watch from {o.watch_fraction:.0%} of the allowable rise, restrict from the allowable rise, critical "
         "from the lower critical rise; heat rise above the neutral less drift, cold (tension or break gap beyond "
-        "the limits) with the neutral without drift. Days with missing data are not counted.", highlight=False)
+        "the limits) with the neutral without drift. Days with missing data are not counted. Screening counts the "
+        "days of the record; `trackplan check` judges the design (return-level) temperatures, which can lie beyond "
+        "every recorded day, so a section can be 'act' there with no restrict day here.", highlight=False)
     if replay:
         console.print(f"{replay} section(s) are screened before their neutral date with the recorded neutral "
                       "temperature: a replay of the climate on the section as recorded, not its past.",
