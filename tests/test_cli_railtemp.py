@@ -18,7 +18,8 @@ SAMPLES = ROOT / "climate_samples"
 GREENSBORO = Path(__import__("pvlib").__file__).parent / "data" / "723170TYA.CSV"
 JSON_KEYS = {"station", "years", "design_basis", "return_period_years", "design_max_rail_temperature_C",
              "design_min_rail_temperature_C", "max_air_temperature_C", "min_air_temperature_C", "annual",
-             "warnings", "caution"}
+             "warnings", "caution", "design_max_rail_temperature_ci_C", "design_min_rail_temperature_ci_C",
+             "ci_level", "inputs"}
 ANNUAL_KEYS = {"year", "max_rail_temperature_C", "min_rail_temperature_C", "max_air_temperature_C",
                "min_air_temperature_C"}
 

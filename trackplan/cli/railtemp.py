@@ -121,7 +121,13 @@ def railtemp_cmd(
 
     if as_json:
         obj = design.as_json(station)
-        obj["warnings"] = warnings
+        obj["design_max_rail_temperature_ci_C"] = list(design.max_ci_C) if design.max_ci_C else None
+        obj["design_min_rail_temperature_ci_C"] = list(design.min_ci_C) if design.min_ci_C else None
+        obj["ci_level"] = design.ci_level
+        obj["inputs"] = {"rail": profile.name, "method": name, "latitude_deg": site.latitude_deg,
+                         "longitude_deg": site.longitude_deg, "track_azimuth_deg": site.track_azimuth_deg,
+                         "shade_factor": site.shade_factor, "distribution": distribution}
+        obj["warnings"] = list(dict.fromkeys(warnings))
         obj["caution"] = CAUTION
         emit_json(obj)
         return
