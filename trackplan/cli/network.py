@@ -33,9 +33,10 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
     if progress_enabled() and len(sf.sections) > 3:
         from rich.progress import Progress
 
-        with Progress(console=err_console, transient=True) as bar:
+        # no refresh thread (auto_refresh=False): worker processes are forked during the run
+        with Progress(console=err_console, transient=True, auto_refresh=False) as bar:
             task = bar.add_task("assessing sections", total=len(sf.sections))
-            results, problems = assessor.assess_all(sf.sections, progress=lambda: bar.advance(task))
+            results, problems = assessor.assess_all(sf.sections, progress=lambda: (bar.advance(task), bar.refresh()))
     else:
         results, problems = assessor.assess_all(sf.sections)
     problems = sf.problems + problems

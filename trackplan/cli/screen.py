@@ -46,9 +46,10 @@ def run_screen(sections_file: Path, options, strict: bool):
     if progress_enabled() and len(sf.sections) > 3:
         from rich.progress import Progress
 
-        with Progress(console=err_console, transient=True) as bar:
+        # no refresh thread (auto_refresh=False): worker processes are forked during the run
+        with Progress(console=err_console, transient=True, auto_refresh=False) as bar:
             task = bar.add_task("screening sections", total=len(sf.sections))
-            result = screener.screen_all(sf.sections, progress=lambda: bar.advance(task))
+            result = screener.screen_all(sf.sections, progress=lambda: (bar.advance(task), bar.refresh()))
     else:
         result = screener.screen_all(sf.sections)
     result.problems = sf.problems + result.problems
