@@ -148,3 +148,14 @@ def test_parallel_assessment_equals_sequential(monkeypatch):
     for a, b in zip(seq, par):
         assert a.check == b.check and a.target == b.target
         assert b.climate.daily is None
+
+
+def test_output_name_clash_refused_before_writing(run_cli, tmp_path):
+    # an input named like a planned output: refused before any file is written
+    import shutil
+
+    rec = tmp_path / "rail_temperature_daily.csv"
+    shutil.copy(ROOT / "climate_samples" / "gullhaven_quay_hourly.csv.gz", rec)
+    res = run_cli("railtemp", str(rec), "--out", str(tmp_path))
+    assert res.exit_code == 2 and "would overwrite an input" in res.output
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["rail_temperature_daily.csv"]

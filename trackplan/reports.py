@@ -16,11 +16,13 @@ from typing import Callable, Iterable
 from trackplan.errors import InputError
 
 
-def prepare_out_dir(out: str | Path, inputs: Iterable[str | Path] = ()) -> Path:
+def prepare_out_dir(out: str | Path, inputs: Iterable[str | Path] = (), planned: Iterable[str] = ()) -> Path:
     """Create ``out`` (and parents) and return it as a Path.
 
-    ``inputs`` are the run's input files: refusing to write over them is done
-    file by file by :func:`write_atomic`; here a folder that *is* an input is refused.
+    ``inputs`` are the run's input files: a folder that *is* an input is refused,
+    and so is any of the ``planned`` file names that would land on an input (checked
+    before anything is written, so no run stops half-way through its outputs);
+    :func:`write_atomic` guards each file again.
 
     Raises
     ------
@@ -32,6 +34,11 @@ def prepare_out_dir(out: str | Path, inputs: Iterable[str | Path] = ()) -> Path:
         raise InputError("is an input file; give a folder for the output files", f"--out {out}")
     if out.exists() and not out.is_dir():
         raise InputError("exists and is not a folder; give a folder for the output files", f"--out {out}")
+    ins = {Path(p).resolve() for p in inputs}
+    for name in planned:
+        if (out / name).resolve() in ins:
+            raise InputError(f"the output {name} would overwrite an input file; choose another --out folder",
+                             f"--out {out}")
     try:
         out.mkdir(parents=True, exist_ok=True)
     except OSError as exc:

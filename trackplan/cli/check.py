@@ -83,7 +83,8 @@ def write_check_outputs(out: Path, results, sections_file: Path, system: str) ->
 
     reports.matplotlib_backend()
     inputs = [sections_file] + [a.section.climate_path for a in results]
-    out = reports.prepare_out_dir(out, inputs)
+    out = reports.prepare_out_dir(out, inputs, planned=["check.csv", "check_summary.html"] +
+                                  [f"force_envelope_{a.section.id}.png" for a in results])
     written = [reports.write_csv(out / "check.csv", pd.DataFrame(reports.check_rows(results)), inputs)]
     pngs = {}
     for a in results:

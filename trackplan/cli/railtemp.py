@@ -93,7 +93,9 @@ def railtemp_cmd(
     if out is not None:
         from trackplan import reports
 
-        out_dir = reports.prepare_out_dir(out, inputs=[file])
+        out_dir = reports.prepare_out_dir(out, inputs=[file], planned=[
+            "rail_temperature_hourly.csv", "rail_temperature_daily.csv", "annual_extremes.csv",
+            "annual_extremes.png", "return_levels.png", "hottest_week.png"])
 
     df, meta = weather.read_record(file)
     lat_v = lat_v if lat_v is not None else meta.get("latitude_deg")

@@ -234,7 +234,8 @@ def write_outputs(out: Path, result, sections_file: Path, system: str) -> list[P
 
     reports.matplotlib_backend()
     inputs = [sections_file] + sorted({str(r.climate_path) for r in result.sections if r.climate_path})
-    out = reports.prepare_out_dir(out, inputs)
+    out = reports.prepare_out_dir(out, inputs, planned=["flagged_days.csv", "annual_counts.csv", "screen_summary.csv",
+                                                        "flagged_timeline.png", "annual_counts.png"])
     written = [
         reports.write_csv(out / "flagged_days.csv", screening.flagged_frame(result), inputs),
         reports.write_csv(out / "annual_counts.csv", screening.annual_frame(result), inputs),
