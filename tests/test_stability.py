@@ -316,3 +316,21 @@ def test_robustness_random_parameter_sets():
             assert r.lower_critical_rise_K is None
     assert ok + failed == 200
     assert failed <= 20  # explicit failures are allowed, but must stay the exception
+
+
+def test_small_misalignment_on_strong_track_uses_the_buckled_branch():
+    # Consolidated concrete 60E1 with 10 mm shows no peak below the 200 K analysis limit; the buckled
+    # branch exists all the same (its lower critical rise falls only slowly with the misalignment), so
+    # the allowable rise must come from it, never from a curve that merely stopped at the limit.
+    p = rails.get_profile("60E1")
+    steel = thermal.default_steel(False)
+    r10 = st.solve_equilibrium_curve(st.track_parameters(p, steel, "concrete", "consolidated", misalignment_m=0.010))
+    r20 = st.solve_equilibrium_curve(st.track_parameters(p, steel, "concrete", "consolidated", misalignment_m=0.020))
+    assert r10.response == "snap-through" and r10.lower_critical_rise_K is not None
+    assert any("buckled branch was traced" in n for n in r10.notes)
+    # the 50 mm branch is on the safe side of the 20 mm one, by a few kelvin only
+    assert r10.lower_critical_rise_K <= r20.lower_critical_rise_K
+    assert r10.lower_critical_rise_K > 0.85 * r20.lower_critical_rise_K
+    assert r10.allowable_rise_K <= r10.lower_critical_rise_K < st.MAX_RISE_K / 2
+    r0 = st.solve_equilibrium_curve(st.track_parameters(p, steel, "concrete", "consolidated", misalignment_m=0.0))
+    assert r0.allowable_rise_K == pytest.approx(r10.allowable_rise_K, rel=1e-6)
