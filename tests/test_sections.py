@@ -121,3 +121,22 @@ def test_bad_defaults_and_empty(tmp_path):
     f.write_text("this is = = not toml")
     with pytest.raises(InputError, match="TOML"):
         load_sections(f)
+
+
+def test_sleeper_spacing_scales_the_preset_resistances():
+    # resistance per metre = resistance per sleeper / spacing (the presets' own construction)
+    from trackplan.assess import Assessor
+    from trackplan.stability import REFERENCE_SPACING_M, get_preset
+
+    sf = load_sections(EXAMPLE, today=dt.date(2026, 12, 1), strict=True)
+    by = {s.id: s for s in sf.sections}
+    a = Assessor()
+    kp3 = by["KP-103"]  # timber at 19.5 in
+    inp = a.track_input(kp3)
+    pre = get_preset("timber", "consolidated", "full")
+    f = REFERENCE_SPACING_M["timber"] / (19.5 * 0.0254)
+    assert inp.peak_resistance_N_per_m == pytest.approx(pre.peak_resistance_N_per_m * f)
+    assert inp.longitudinal_resistance_N_per_m == pytest.approx(pre.longitudinal_resistance_N_per_m * f)
+    gq3 = by["GQ-203"]  # timber, no spacing given: the reference spacing, presets as they are
+    assert gq3.sleeper_spacing_m == pytest.approx(0.65)
+    assert a.track_input(gq3).peak_resistance_N_per_m == pytest.approx(pre.peak_resistance_N_per_m)

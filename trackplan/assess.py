@@ -190,6 +190,15 @@ class Assessor:
                 "longitudinal_resistance": "longitudinal_resistance_N_per_m",
                 "lateral_stiffness": "lateral_stiffness_N_per_m2",
             }[name]] = value
+        # the presets are per metre at a reference sleeper spacing: scale them to the section's
+        # (resistance per metre = resistance per sleeper / spacing); explicit overrides stand as given
+        f = stability.spacing_factor(section.sleeper, section.sleeper_spacing_m)
+        if abs(f - 1.0) > 1e-9:
+            pre = stability.get_preset(section.sleeper, ballast or section.ballast, section.shoulder)
+            for field, value in (("peak_resistance_N_per_m", pre.peak_resistance_N_per_m),
+                                 ("limit_resistance_N_per_m", pre.limit_resistance_N_per_m),
+                                 ("longitudinal_resistance_N_per_m", pre.longitudinal_resistance_N_per_m)):
+                kw.setdefault(field, value * f)
         return stability.track_parameters(
             section.profile, section.steel, section.sleeper, ballast or section.ballast, section.shoulder,
             radius_m=section.radius_m, misalignment_m=section.misalignment_m,

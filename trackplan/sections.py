@@ -6,7 +6,7 @@ section; every value that is a quantity carries its unit::
     [defaults]
     rail = "60E1"
     sleeper = "concrete"            # timber | concrete | steel
-    sleeper_spacing = "0.6 m"
+    sleeper_spacing = "0.6 m"       # default: the spacing behind the presets (0.65 m timber/steel, 0.60 m concrete)
     ballast = "consolidated"        # consolidated | partial | disturbed
     shoulder = "full"               # full | reduced
     drift_allowance = "5 K"
@@ -73,7 +73,6 @@ DISTURBING_EVENTS = ("tamping", "ballast-work", "renewal")
 #: Planning defaults, each overridable in [defaults] or per section.
 DEFAULTS = {
     "sleeper": "concrete",
-    "sleeper_spacing": "0.6 m",
     "ballast": "consolidated",
     "shoulder": "full",
     "track_azimuth": "0 deg",
@@ -368,6 +367,10 @@ def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
         raise InputError(f"radius {radius:.0f} m is below 100 m; trackplan's stability model is not for such "
                          "tight curves", f.w("radius"))
     spacing = f.quantity("sleeper_spacing", "length")
+    if spacing is None:  # the spacing behind the sleeper type's preset resistances
+        from trackplan.stability import REFERENCE_SPACING_M
+
+        spacing = REFERENCE_SPACING_M.get(f.raw("sleeper"), 0.6)
     if not 0.3 <= spacing <= 1.0:
         raise InputError(f"sleeper spacing {spacing:.2f} m is outside 0.3..1.0 m", f.w("sleeper_spacing"))
     mis = f.quantity("misalignment", "length")

@@ -317,6 +317,18 @@ def check_input(inp: TrackStabilityInput, where: str = "track parameters") -> No
 # ----------------------------------------------------------------------------------------------
 
 
+#: Sleeper spacing [m] behind the per-metre values of ``data/track_presets.csv`` (the push-test
+#: force per sleeper divided by this spacing; see the file's header). A section with another
+#: spacing scales the per-metre resistances by ``reference / actual`` (:func:`spacing_factor`).
+REFERENCE_SPACING_M = {"timber": 0.65, "steel": 0.65, "concrete": 0.60}
+
+
+def spacing_factor(sleeper: str, spacing_m: float) -> float:
+    """Factor on the preset per-metre resistances for a sleeper spacing ``spacing_m`` [m]:
+    resistance per metre = resistance per sleeper / spacing, so ``reference / spacing``."""
+    return REFERENCE_SPACING_M[sleeper] / spacing_m
+
+
 @dataclass(frozen=True)
 class ResistancePreset:
     """One row of ``data/track_presets.csv`` (SI)."""
