@@ -21,7 +21,7 @@ from __future__ import annotations
 import csv
 import difflib
 import tomllib
-from dataclasses import asdict, dataclass
+from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
 from pathlib import Path
@@ -251,4 +251,4 @@ def profile_rows(extra: dict[str, RailProfile] | None = None) -> list[RailProfil
     return rows
 
 
-__all__ = ["RailProfile", "catalogue", "get_profile", "load_user_profiles", "profile_rows", "asdict"]
+__all__ = ["RailProfile", "catalogue", "get_profile", "load_user_profiles", "profile_rows"]
