@@ -70,3 +70,24 @@ def test_force_table_has_caution(run_cli):
     res = run_cli("force", "--rail", "60E1", "--neutral", "27 degC", "--at", "60 degC")
     assert res.exit_code == 0
     assert "Planning aid only" in res.stdout
+
+
+def test_console_entry_loads_only_the_command_it_runs():
+    # `trackplan force ...` imports only the force command module (fast start-up) and still
+    # dispatches as a group: the subcommand name is not taken for an argument.
+    import json
+    import subprocess
+    import sys
+
+    code = ("import sys, json; sys.argv = ['trackplan', 'force', '--rail', '60E1', '--neutral', '27 degC', "
+            "'--at', '60 degC', '--json']\n"
+            "from trackplan.cli import main\n"
+            "try:\n    main()\nexcept SystemExit:\n    pass\n"
+            "print(json.dumps([sorted(m for m in sys.modules if m.startswith('trackplan.cli.')), "
+            "sorted(m for m in ('matplotlib', 'pvlib', 'scipy', 'pandas', 'pint') if m in sys.modules)]), "
+            "file=sys.stderr)")
+    res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    assert json.loads(res.stdout)["results"][0]["rise_K"] == pytest.approx(33.0)
+    loaded, heavy = json.loads(res.stderr.strip().splitlines()[-1])
+    assert "trackplan.cli.force" in loaded and "trackplan.cli.screen" not in loaded
+    assert heavy == []  # no matplotlib, pvlib, scipy, pandas or pint on the start-up path

@@ -10,10 +10,10 @@ pandas) are imported inside the command functions that need them, so that
 from __future__ import annotations
 
 import importlib
+import sys
 
-from trackplan.cli.common import app
-
-#: Command modules, in the order their commands appear in ``--help``.
+#: Command modules, in the order their commands appear in ``--help``; each module
+#: registers the subcommand of the same name.
 COMMAND_MODULES = [
     "profiles",
     "force",
@@ -26,10 +26,31 @@ COMMAND_MODULES = [
     "demo",
 ]
 
-for _name in COMMAND_MODULES:
-    importlib.import_module(f"trackplan.cli.{_name}")
+
+def load_commands(names=None):
+    """Import the command modules (all, or only ``names``) and return the typer app."""
+    from trackplan.cli.common import app
+
+    for name in names or COMMAND_MODULES:
+        importlib.import_module(f"trackplan.cli.{name}")
+    return app
+
+
+def __getattr__(name: str):
+    # ``from trackplan.cli import app`` (tests, embedding) gets the app with every command
+    if name == "app":
+        return load_commands()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def main() -> None:
-    """Console-script entry point."""
+    """Console-script entry point.
+
+    Only the module of the subcommand being run is imported, so that light commands
+    (``force``, ``profiles``, ``destress``) do not pay for the imports of the others;
+    ``trackplan --help`` (or no subcommand) loads them all to list them.
+    """
+    args = sys.argv[1:]
+    first = next((a for a in args if not a.startswith("-")), None)
+    app = load_commands([first] if first in COMMAND_MODULES else None)
     app(prog_name="trackplan")

@@ -38,6 +38,11 @@ app = typer.Typer(
 )
 
 # Piped output (files, scripts) gets a fixed width wide enough for the tables.
+@app.callback()
+def _group() -> None:
+    """Thermal stress planning for continuous welded rail (see the commands below)."""
+
+
 console = Console(width=None if sys.stdout.isatty() else 120)
 err_console = Console(stderr=True, width=None if sys.stderr.isatty() else 120)
 
