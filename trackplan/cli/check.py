@@ -136,7 +136,7 @@ def check_cmd(
             console.print(f"Wrote {len(written)} files to {written[0].parent}/ (summary: check_summary.html)",
                           highlight=False)
         print_caution()
-    report_problems(problems)
+    report_problems(problems, len(results))
     if problems:
         raise typer.Exit(2)
     if any(a.check.verdict == "act" for a in results):

@@ -45,10 +45,15 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
     return results, problems, assessor
 
 
-def report_problems(problems: list[InputError]) -> None:
-    """Print each bad section on stderr (the good ones have been reported)."""
-    for p in problems:
-        print_error(p)
+def report_problems(problems: list[InputError], n_ok: int | None = None) -> None:
+    """Print the bad sections on stderr: identical messages once, with how many sections
+    share them (a wrong --from/--to would otherwise repeat for every section).
+    ``n_ok`` is the number of sections that were assessed (reported above)."""
+    from collections import Counter
+
+    counts = Counter(str(p) for p in problems)
+    for text, n in counts.items():
+        print_error(InputError(text + (f" ({n} sections)" if n > 1 else "")))
     if problems:
-        err_console.print(f"{len(problems)} section(s) could not be assessed; the others are above.",
-                          highlight=False)
+        tail = " (none could)." if n_ok == 0 else "; the others are above."
+        err_console.print(f"{len(problems)} section(s) could not be assessed{tail}", highlight=False)

@@ -318,6 +318,6 @@ def screen_cmd(
             console.print(f"Wrote {len(written)} files to {written[0].parent}/ (flagged_days.csv, annual_counts.csv, "
                           "plots)", highlight=False)
         print_caution()
-    report_problems(result.problems)
+    report_problems(result.problems, len(result.sections))
     if result.problems:
         raise typer.Exit(2)

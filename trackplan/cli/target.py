@@ -111,6 +111,6 @@ def target_cmd(
     else:
         print_targets(results, system.value)
         print_caution()
-    report_problems(problems)
+    report_problems(problems, len(results))
     if problems:
         raise typer.Exit(2)
