@@ -55,5 +55,5 @@ def report_problems(problems: list[InputError], n_ok: int | None = None) -> None
     for text, n in counts.items():
         print_error(InputError(text + (f" ({n} sections)" if n > 1 else "")))
     if problems:
-        tail = " (none could)." if n_ok == 0 else "; the others are above."
-        err_console.print(f"{len(problems)} section(s) could not be assessed{tail}", highlight=False)
+        err_console.print("No section could be assessed." if n_ok == 0 else
+                          f"{len(problems)} section(s) could not be assessed; the others are above.", highlight=False)
