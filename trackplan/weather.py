@@ -1232,18 +1232,12 @@ def _typical_common(raw: pd.DataFrame, colmap: dict, cloud: pd.Series | None, me
     return data
 
 
-def _read_tmy3(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
-    import pvlib
-
-    try:
-        raw0, m = pvlib.iotools.read_tmy3(io.StringIO(text), map_variables=True)
-        raw, _ = pvlib.iotools.read_tmy3(io.StringIO(text), map_variables=True, coerce_year=TYPICAL_YEAR)
-    except Exception as exc:  # pvlib raises many types on malformed files
-        raise InputError(f"cannot read as a TMY3 file ({type(exc).__name__}: {exc})", ctx.label) from None
+def _typical_year_meta(m: dict, station: str, station_id, ctx: _Ctx) -> dict:
+    """Metadata of a TMY3 or EPW file from pvlib's header dict (both hour-ending, wind at 10 m)."""
     meta = _base_meta()
     meta.update(
-        station=str(m.get('Name', '')).strip().strip('"') + (f", {m['State']}" if m.get('State') else ''),
-        station_id=str(m.get("USAF")),
+        station=station,
+        station_id=station_id,
         latitude_deg=float(m["latitude"]),
         longitude_deg=float(m["longitude"]),
         elevation_m=float(m["altitude"]),
@@ -1255,6 +1249,20 @@ def _read_tmy3(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
         solar_position_shift_min=-30.0,
     )
     _check_latlon(meta, ctx, 1)
+    return meta
+
+
+def _read_tmy3(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
+    import pvlib
+
+    try:
+        raw0, m = pvlib.iotools.read_tmy3(io.StringIO(text), map_variables=True)
+        raw, _ = pvlib.iotools.read_tmy3(io.StringIO(text), map_variables=True, coerce_year=TYPICAL_YEAR)
+    except Exception as exc:  # pvlib raises many types on malformed files
+        raise InputError(f"cannot read as a TMY3 file ({type(exc).__name__}: {exc})", ctx.label) from None
+    meta = _typical_year_meta(
+        m, str(m.get('Name', '')).strip().strip('"') + (f", {m['State']}" if m.get('State') else ''),
+        str(m.get("USAF")), ctx)
     # month -> source year, from the file's own date column (MM/DD/YYYY)
     dates = raw0["Date (MM/DD/YYYY)"].astype(str)
     mo = dates.str[:2].astype(int).to_numpy()
@@ -1281,26 +1289,12 @@ def _read_epw(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
         raw, _ = pvlib.iotools.read_epw(io.StringIO(text), coerce_year=TYPICAL_YEAR)
     except Exception as exc:
         raise InputError(f"cannot read as an EPW file ({type(exc).__name__}: {exc})", ctx.label) from None
-    meta = _base_meta()
     name = str(m.get("city", "")).strip()
     for k in ("state-prov", "country"):
         v = str(m.get(k, "")).strip()
         if v and v != "-":
             name += f", {v}"
-    meta.update(
-        station=name,
-        station_id=str(m.get("WMO_code", "")).strip() or None,
-        latitude_deg=float(m["latitude"]),
-        longitude_deg=float(m["longitude"]),
-        elevation_m=float(m["altitude"]),
-        utc_offset_h=float(m["TZ"]),
-        tz=_offset_text(float(m["TZ"])),
-        typical_year=True,
-        wind_height_m=10.0,
-        irradiance_timing="hour-ending",
-        solar_position_shift_min=-30.0,
-    )
-    _check_latlon(meta, ctx, 1)
+    meta = _typical_year_meta(m, name, str(m.get("WMO_code", "")).strip() or None, ctx)
     mo, yr = raw0["month"].to_numpy(), raw0["year"].to_numpy()
     first = np.unique(mo, return_index=True)[1]
     meta["source_years"] = {int(mo[i]): int(yr[i]) for i in first}
