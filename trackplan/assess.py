@@ -43,7 +43,6 @@ class ClimateResult:
     """Design rail temperatures of a section, with where they come from."""
 
     design: object  # trackplan.extremes.DesignExtremes
-    daily: object  # pandas.DataFrame of daily rail/air extremes
     method: str
     station: str
     hot_month: str | None
@@ -173,7 +172,7 @@ class Assessor:
         design, month = self._design[dkey]
         warnings = list(dict.fromkeys(list(meta.get("warnings", [])) + list(daily.attrs.get("warnings", []))
                                       + list(design.warnings)))
-        return ClimateResult(design, daily, daily.attrs.get("method", section.rail_temperature_method),
+        return ClimateResult(design, daily.attrs.get("method", section.rail_temperature_method),
                              str(meta.get("station", section.climate_path.stem)), month, warnings)
 
     # -- track ----------------------------------------------------------
@@ -280,26 +279,22 @@ class Assessor:
 
         With many sections on a machine with several cores, the climate records are shared
         out between worker processes (each record's sections stay together, so its solar
-        geometry is still prepared once); the results come back without their daily series
-        (``climate.daily`` is None), which the check does not need.
+        geometry is still prepared once).
 
         Returns the assessments in the order of ``sections`` and the problems found.
         """
         self.prepare_stability(sections)
-        out = map_record_groups(lambda idx, keep: self._assess_indices(sections, idx, keep_daily=keep),
+        out = map_record_groups(lambda idx: self._assess_indices(sections, idx),
                                 sections, progress)
         results = [out[i] for i in range(len(sections)) if isinstance(out.get(i), SectionAssessment)]
         problems = [out[i] for i in sorted(out) if isinstance(out[i], InputError)]
         return results, problems
 
-    def _assess_indices(self, sections, indices, keep_daily=True) -> dict:
+    def _assess_indices(self, sections, indices) -> dict:
         part: dict = {}
         for i in indices:
             try:
-                a = self.assess(sections[i])
-                if not keep_daily:
-                    a.climate.daily = None
-                part[i] = a
+                part[i] = self.assess(sections[i])
             except InputError as exc:
                 part[i] = exc
         return part
@@ -324,14 +319,14 @@ def _fork_context():
 
 
 def map_record_groups(work, sections, progress=None) -> dict:
-    """Run ``work(indices, in_process)`` over the sections grouped by climate record.
+    """Run ``work(indices)`` over the sections grouped by climate record.
 
     ``work`` returns a dict ``index -> result or InputError`` for the indices it is
     given (all of one record, in place order, so that the record's solar geometry is
     prepared once). With at least :data:`PARALLEL_MIN_SECTIONS` sections, more than one
     record and more than one core, the groups are shared out between forked worker
-    processes (``in_process`` is then False: results should leave out what the parent
-    does not need, such as daily series). Returns the merged dict.
+    processes (results come back pickled: they should hold only what the parent needs).
+    Returns the merged dict.
     """
     groups: dict[str, list[int]] = {}
     for i in sorted(range(len(sections)), key=lambda i: (str(sections[i].climate_path),
@@ -342,7 +337,7 @@ def map_record_groups(work, sections, progress=None) -> dict:
     ctx = _fork_context() if len(sections) >= PARALLEL_MIN_SECTIONS and len(groups) > 1 else None
     if ctx is None:
         for idx in groups.values():
-            out.update(work(idx, True))
+            out.update(work(idx))
             if progress is not None:
                 for _ in idx:
                     progress()
@@ -366,7 +361,7 @@ def map_record_groups(work, sections, progress=None) -> dict:
 
 def _run_group(indices):
     """Worker: run the inherited work function on one record's sections."""
-    return _WORKER_STATE(indices, False)
+    return _WORKER_STATE(indices)
 
 
 def _solve_track(inp):

@@ -955,7 +955,7 @@ class Screener:
             self.assessor.prepare_stability(disturbed, ballasts=("partial", "disturbed"))
         from trackplan.assess import map_record_groups
 
-        def work(indices, in_process):
+        def work(indices):
             part = {}
             for i in indices:
                 try:
