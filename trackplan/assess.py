@@ -177,32 +177,16 @@ class Assessor:
 
     # -- track ----------------------------------------------------------
     def track_input(self, section: Section, ballast: str | None = None):
-        from trackplan import stability
+        """The stability inputs of the section's track (or with another ballast state), built
+        through :func:`trackplan.track.build_track` like every other door."""
+        from trackplan.track import build_track
 
-        ov = dict(section.stability_overrides)
-        kw = {}
-        for name, value in ov.items():
-            kw[{
-                "peak_resistance": "peak_resistance_N_per_m",
-                "limit_resistance": "limit_resistance_N_per_m",
-                "peak_displacement": "peak_displacement_m",
-                "longitudinal_resistance": "longitudinal_resistance_N_per_m",
-                "lateral_stiffness": "lateral_stiffness_N_per_m2",
-            }[name]] = value
-        # the presets are per metre at a reference sleeper spacing: scale them to the section's
-        # (resistance per metre = resistance per sleeper / spacing); explicit overrides stand as given
-        f = stability.spacing_factor(section.sleeper, section.sleeper_spacing_m)
-        if abs(f - 1.0) > 1e-9:
-            pre = stability.get_preset(section.sleeper, ballast or section.ballast, section.shoulder)
-            for field, value in (("peak_resistance_N_per_m", pre.peak_resistance_N_per_m),
-                                 ("limit_resistance_N_per_m", pre.limit_resistance_N_per_m),
-                                 ("longitudinal_resistance_N_per_m", pre.longitudinal_resistance_N_per_m)):
-                kw.setdefault(field, value * f)
-        return stability.track_parameters(
-            section.profile, section.steel, section.sleeper, ballast or section.ballast, section.shoulder,
-            radius_m=section.radius_m, misalignment_m=section.misalignment_m,
-            misalignment_length_m=section.misalignment_length_m, **kw,
-        )
+        return build_track(
+            section.profile, section.steel, sleeper=section.sleeper, ballast=ballast or section.ballast,
+            shoulder=section.shoulder, sleeper_spacing_m=section.sleeper_spacing_m, radius_m=section.radius_m,
+            misalignment_m=section.misalignment_m, misalignment_length_m=section.misalignment_length_m,
+            loading=section.loading, overrides=dict(section.stability_overrides),
+            where=f"{section.file.name}: section {section.id}")
 
     def stability(self, section: Section, ballast: str | None = None):
         """Stability result for the section's track (or with another ballast state)."""
@@ -244,10 +228,11 @@ class Assessor:
         inp = self.track_input(section)
         r = inp.longitudinal_resistance_N_per_m
         if r is None:
-            from trackplan import stability
+            from trackplan.track import build_track
 
-            r = stability.track_parameters(section.profile, section.steel, section.sleeper, section.ballast,
-                                           section.shoulder).longitudinal_resistance_N_per_m
+            r = build_track(section.profile, section.steel, sleeper=section.sleeper, ballast=section.ballast,
+                            shoulder=section.shoulder, sleeper_spacing_m=section.sleeper_spacing_m,
+                            loading="none").longitudinal_resistance_N_per_m
         return float(r)
 
     # -- the whole assessment -------------------------------------------

@@ -91,6 +91,8 @@ DEFAULTS = {
     "laying_tolerance": "3 K",
     "return_period": 50,
     "recovery_days": 30,
+    # Train standing on the track in the stability analysis (trackplan.loading; "none" = unloaded).
+    "loading": "freight-22.5t",
 }
 
 _KNOWN_FIELDS = {
@@ -99,18 +101,21 @@ _KNOWN_FIELDS = {
     "track_azimuth", "misalignment", "misalignment_length", "length", "shade",
     "neutral_temperature", "neutral_date", "neutral_basis", "drift_allowance", "gap_limit",
     "tension_stress_limit", "laying_tolerance", "return_period", "stability", "events",
-    "recovery_days", "rail_temperature_method",
+    "recovery_days", "rail_temperature_method", "loading",
 }
 _DEFAULTABLE = _KNOWN_FIELDS - {"name", "location", "chainage", "stability", "events", "neutral_date",
                                 "neutral_temperature", "neutral_basis"}
 
-#: Stability overrides accepted in [sections.ID.stability], with their kind.
+#: Stability overrides accepted in [sections.ID.stability], with their kind (one table with the
+#: command line: :data:`trackplan.track.OVERRIDES`; short lengths are written with a unit here).
 STABILITY_FIELDS = {
     "peak_resistance": "force_per_length",
     "limit_resistance": "force_per_length",
     "peak_displacement": "length",
+    "limit_displacement": "length",
     "longitudinal_resistance": "force_per_length",
     "lateral_stiffness": "stiffness_per_area",
+    "support_modulus": "stress",
 }
 
 
@@ -173,6 +178,7 @@ class Section:
     recovery_days: int
     rail_temperature_method: str
     stability_overrides: tuple = ()  # tuple of (name, SI value) pairs: hashable
+    loading: str = "freight-22.5t"  # train preset of the stability analysis, or "none"
     events: tuple = ()  # tuple of Event, sorted by date
 
     @property
@@ -409,6 +415,12 @@ def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
     if isinstance(rec, bool) or not isinstance(rec, int) or not 0 <= rec <= 730:
         raise InputError(f"expected a whole number of days 0..730, got {rec!r}", f.w("recovery_days"))
     method = f.raw("rail_temperature_method") or "auto"
+    from trackplan import loading as loading_mod
+
+    train = f.raw("loading")
+    if not isinstance(train, str) or train not in loading_mod.loading_names():
+        raise InputError(f"unknown loading {train!r}; accepted: {', '.join(loading_mod.loading_names())}",
+                         f.w("loading"))
 
     stab = table.get("stability", defaults.get("stability", {}))
     if not isinstance(stab, dict):
@@ -467,6 +479,7 @@ def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
         return_period_years=rp,
         recovery_days=int(rec),
         rail_temperature_method=str(method),
+        loading=train,
         stability_overrides=tuple(sorted(overrides)),
         events=events,
     )

@@ -27,6 +27,8 @@ from trackplan.errors import InputError
 _SLEEPERS = "timber, steel, concrete"
 _BALLAST = "consolidated, partial, disturbed"
 _SHOULDER = "full, reduced"
+_LOADING = "freight-22.5t (default), freight-25t, freight-286k, passenger-coach, locomotive-bo-bo, none"
+_CRITERIA = "practice-calibrated (default), lower-critical, upper-quarter"
 
 
 def _positive_option(text, kind, option, system, allow_zero=False):
@@ -88,9 +90,13 @@ def stability_cmd(
     peak_displacement: Optional[str] = typer.Option(None, "--peak-displacement", help="Override the lateral displacement at the peak, e.g. '4 mm'."),
     longitudinal_resistance: Optional[str] = typer.Option(
         None, "--longitudinal-resistance", help="Override the longitudinal resistance per rail, e.g. '8 kN/m', or 'rigid' for full restraint."),
+    limit_displacement: Optional[str] = typer.Option(None, "--limit-displacement", help="Override the lateral displacement at which the resistance has fallen to its limit, e.g. '100 mm'."),
     lateral_stiffness: Optional[str] = typer.Option(
         None, "--lateral-stiffness", help="Use a linear (Winkler) lateral foundation of this modulus instead of the peak/limit law, e.g. '2000 kN/m**2'."),
-    criterion: str = typer.Option("lower-critical", "--criterion", help="Allowable-rise criterion: lower-critical (default) or upper-quarter."),
+    sleeper_spacing: Optional[str] = typer.Option(None, "--sleeper-spacing", help="Sleeper spacing, e.g. '0.6 m' (default: the sleeper type's reference spacing); scales the preset resistances."),
+    loading: str = typer.Option("freight-22.5t", "--loading", help=f"Train standing on the track (its axles press the track down, it lifts between bogies): {_LOADING}."),
+    support_modulus: Optional[str] = typer.Option(None, "--support-modulus", help="Override the track support modulus per rail, e.g. '30 MPa' (N/mm per mm of rail)."),
+    criterion: str = typer.Option("practice-calibrated", "--criterion", help=f"Allowable-rise criterion: {_CRITERIA}."),
     profiles_file: Optional[Path] = typer.Option(None, "--profiles-file", help="TOML file with profiles of your own."),
     out: Optional[Path] = typer.Option(None, "--out", help="Folder for the PNG of the curve (stability_curve.png) and the curve as CSV."),
     system: UnitSystem = UNITS_OPTION,
@@ -106,43 +112,47 @@ def stability_cmd(
     Example: trackplan stability --rail 60E1 --sleeper concrete --ballast consolidated --radius "800 m" --misalignment "20 mm"
     """
     from trackplan import stability as st
+    from trackplan.track import build_track
 
     extra = rails.load_user_profiles(profiles_file) if profiles_file else None
     profile = rails.get_profile(rail, extra)
     steel = thermal.default_steel(profile.is_north_american)
     s = system.value
+    geo: dict = {}
     over: dict = {}
-    echoes: dict = {}
 
-    def take(text, kind, option, field, allow_zero=False):
-        v, e = _positive_option(text, kind, option, s, allow_zero)
+    def take(text, kind, option, allow_zero=False):
+        return _positive_option(text, kind, option, s, allow_zero)[0]
+
+    geo["radius_m"] = take(radius, "length", "--radius") if radius is not None else None
+    for text, key, kind, option, zero in ((misalignment, "misalignment_m", "short_length", "--misalignment", True),
+                                          (misalignment_length, "misalignment_length_m", "length",
+                                           "--misalignment-length", False),
+                                          (sleeper_spacing, "sleeper_spacing_m", "length", "--sleeper-spacing", False)):
+        v = take(text, kind, option, zero)
         if v is not None:
-            over[field] = v
-            echoes[option] = e
+            geo[key] = v
+    for text, name, option, zero in ((peak_resistance, "peak_resistance", "--peak-resistance", False),
+                                     (limit_resistance, "limit_resistance", "--limit-resistance", True),
+                                     (peak_displacement, "peak_displacement", "--peak-displacement", False),
+                                     (limit_displacement, "limit_displacement", "--limit-displacement", False),
+                                     (lateral_stiffness, "lateral_stiffness", "--lateral-stiffness", False),
+                                     (support_modulus, "support_modulus", "--support-modulus", False)):
+        from trackplan.track import OVERRIDES
 
-    if radius is not None:
-        take(radius, "length", "--radius", "radius_m")
-    take(misalignment, "short_length", "--misalignment", "misalignment_m", allow_zero=True)
-    take(misalignment_length, "length", "--misalignment-length", "misalignment_length_m")
-    take(peak_resistance, "force_per_length", "--peak-resistance", "peak_resistance_N_per_m")
-    take(limit_resistance, "force_per_length", "--limit-resistance", "limit_resistance_N_per_m", allow_zero=True)
-    take(peak_displacement, "short_length", "--peak-displacement", "peak_displacement_m")
-    take(lateral_stiffness, "stiffness_per_area", "--lateral-stiffness", "lateral_stiffness_N_per_m2")
+        v = take(text, OVERRIDES[name][0], option, zero)
+        if v is not None:
+            over[name] = v
     if longitudinal_resistance is not None:
         if longitudinal_resistance.strip().lower() == "rigid":
-            over["longitudinal_resistance_N_per_m"] = None
-            echoes["--longitudinal-resistance"] = "rigid"
+            over["longitudinal_resistance"] = None
         else:
-            take(longitudinal_resistance, "force_per_length", "--longitudinal-resistance",
-                 "longitudinal_resistance_N_per_m")
-    if peak_resistance is not None and limit_resistance is None:
-        # keep the preset's limit/peak ratio when only the peak is given
-        p = st.get_preset(sleeper, ballast, shoulder)
-        over["limit_resistance_N_per_m"] = over["peak_resistance_N_per_m"] * (
-            p.limit_resistance_N_per_m / p.peak_resistance_N_per_m)
+            over["longitudinal_resistance"] = take(longitudinal_resistance, "force_per_length",
+                                                   "--longitudinal-resistance")
     if criterion not in st.CRITERIA:
         raise InputError(f"unknown criterion {criterion!r}; accepted: {', '.join(st.CRITERIA)}", "--criterion")
-    inp = st.track_parameters(profile, steel, sleeper, ballast, shoulder, **over)
+    inp = build_track(profile, steel, sleeper=sleeper, ballast=ballast, shoulder=shoulder, loading=loading,
+                      overrides=over, where="stability inputs", **geo)
 
     if progress_enabled() and not as_json:
         from rich.progress import Progress
@@ -153,6 +163,7 @@ def stability_cmd(
                                                 progress=lambda f: prog.update(task, completed=f))
     else:
         result = st.analyse_stability(inp, criterion)
+    result = st.with_unloaded(result)
 
     files = []
     if out is not None:
@@ -180,10 +191,16 @@ def stability_cmd(
     tbl.add_column("quantity")
     tbl.add_column("value", justify="right")
     td = "temperature_difference"
-    tbl.add_row("upper critical rise", units.fmt(result.upper_critical_rise_K, td, s))
-    tbl.add_row("lower critical rise", units.fmt(result.lower_critical_rise_K, td, s))
+    tbl.add_row("upper critical rise" + (" (loaded)" if inp.loading is not None else ""),
+                units.fmt(result.upper_critical_rise_K, td, s))
+    tbl.add_row("lower critical rise" + (" (loaded)" if inp.loading is not None else ""),
+                units.fmt(result.lower_critical_rise_K, td, s))
     tbl.add_row("[bold]allowable rise[/]", f"[bold]{units.fmt(result.allowable_rise_K, td, s)}[/]")
     tbl.add_row("response", result.response)
+    tbl.add_row("loading", result.loading_name if inp.loading is None
+                else f"{result.loading_name} ({inp.loading.position})")
+    tbl.add_row("unloaded upper / lower critical", f"{units.fmt(result.unloaded_upper_critical_rise_K, td, s)} / "
+                f"{units.fmt(result.unloaded_lower_critical_rise_K, td, s)}")
     tbl.add_row("lateral EI (two rails)", f"{inp.EI_lateral_Nm2 / 1e3:.0f} kN·m²" if s == "si"
                 else f"{inp.EI_lateral_Nm2 / 4.4482216152605e3 / 0.3048**2:.0f} kip·ft²")
     tbl.add_row("axial EA (two rails)", units.fmt(inp.EA_N, "force", s, 0))
