@@ -86,7 +86,10 @@ def test_target_json(run_cli):
             # biased to the hot side: the target is above the middle of the window
             assert s["target_neutral_temperature_C"] >= (lo + hi) / 2 - 1e-9
         else:
-            assert s["target_neutral_temperature_C"] is None and s["would_open_window"]
+            # empty window, heat first (default): never below the heat floor, the cold-side risk said
+            assert s["priority"] == "heat" and s["would_open_window"] and "cold side" in s["accepted_risk"]
+            a, b = s["laying_range_C"]
+            assert a == pytest.approx(s["heat_floor_C"]) and a < s["target_neutral_temperature_C"] < b
     assert rows["GQ-201"]["feasible"]
     assert any(not s["feasible"] for s in rows.values())
     assert d["caution"]

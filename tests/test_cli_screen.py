@@ -26,13 +26,14 @@ TAMP_DATE, TAMP_DAYS = "1990-07-10", 20
 
 def _track():
     from trackplan import rails, stability, thermal
+    from trackplan.track import build_track
 
     p = rails.get_profile("60E1")
     st = thermal.default_steel(False)
     out = {}
     for b in ("consolidated", "partial", "disturbed"):
-        inp = stability.track_parameters(p, st, "timber", b, "full", radius_m=500.0, misalignment_m=0.03,
-                                         misalignment_length_m=10.0)
+        inp = build_track(p, st, sleeper="timber", ballast=b, radius_m=500.0, misalignment_m=0.03,
+                          misalignment_length_m=10.0)
         res = stability.analyse_stability(inp)
         crit = res.lower_critical_rise_K if res.lower_critical_rise_K is not None else res.upper_critical_rise_K
         out[b] = (float(res.allowable_rise_K), float(crit), float(inp.longitudinal_resistance_N_per_m))

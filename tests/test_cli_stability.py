@@ -80,3 +80,69 @@ def test_stability_bad_input_exit_2(run_cli, args, text):
 def test_stability_help_has_example(run_cli):
     res = run_cli("stability", "--help")
     assert res.exit_code == 0 and "Example" in res.stdout
+
+
+@pytest.mark.parametrize("k_kN", [1000.0, 5000.0])
+def test_hetenyi_through_the_cli_with_loading_none(run_cli, k_kN):
+    # Hetenyi (1946): a perfect track on a linear foundation with full restraint buckles at
+    # 2 sqrt(k EI); at 5000 kN/m**2 this used to be refused as a "bifurcation before the peak"
+    res, d = run_cli("stability", "--rail", "60E1", "--lateral-stiffness", f"{k_kN} kN/m**2",
+                     "--longitudinal-resistance", "rigid", "--misalignment", "0 mm", "--loading", "none", "--json",
+                     json_out=True)
+    assert res.exit_code == 0, res.output
+    expected = 2 * math.sqrt(k_kN * 1e3 * d["lateral_EI_kNm2"] * 1e3) / (d["axial_EA_kN"] * 1e3 * d["alpha_per_K"])
+    assert d["upper_critical_rise_K"] == pytest.approx(expected, rel=0.02)
+    assert d["loading"] == "none"
+
+
+def test_loaded_json_keys(run_cli):
+    res, d = run_cli("stability", "--rail", "60E1", "--json", json_out=True)
+    assert res.exit_code == 0
+    assert d["loading"] == "freight-22.5t" and d["criterion_name"] == "practice-calibrated"
+    assert d["upper_critical_rise_K"] < d["unloaded_upper_critical_rise_K"]
+    assert d["unloaded_lower_critical_rise_K"] is not None
+    assert d["parameters"]["loading"]["axle_load_kN"] == pytest.approx(22.5 * 9.80665)
+    assert d["allowable_rise_K"] < d["lower_critical_rise_K"] < d["upper_critical_rise_K"]
+
+
+@pytest.mark.parametrize("args, words", [
+    (("--axle-load", "600 kN"), "axle load"),
+    (("--axle-load", "0 kN"), "positive"),
+    (("--support-modulus", "500 MPa"), "support modulus"),
+    (("--peak-displacement", "5 mm", "--limit-displacement", "4 mm"), "limit displacement"),
+    (("--peak-resistance", "12 kN/m", "--limit-resistance", "15 kN/m"), "above the peak"),
+    (("--loading", "tram"), "freight-22.5t"),
+    (("--criterion", "half"), "practice-calibrated"),
+])
+def test_bad_stability_inputs_exit_2(run_cli, args, words):
+    res = run_cli("stability", "--rail", "60E1", *args)
+    assert res.exit_code == 2
+    assert words in res.output and "Traceback" not in res.output
+
+
+def test_one_input_path_cli_and_section_file_agree(run_cli, tmp_path):
+    # the same physical overrides by both doors give the same allowable rise (sleeper spacing scaling,
+    # peak given alone keeps the preset's limit/peak ratio, same loading)
+    from pathlib import Path
+
+    climate = Path(__file__).resolve().parents[1] / "climate_samples" / "gullhaven_quay_hourly.csv.gz"
+    f = tmp_path / "one.toml"
+    f.write_text(f'''
+[sections.X-1]
+climate = "{climate.as_posix()}"
+rail = "60E1"
+sleeper = "timber"
+sleeper_spacing = "0.55 m"
+radius = "700 m"
+neutral_temperature = "30 degC"
+loading = "passenger-coach"
+  [sections.X-1.stability]
+  peak_resistance = "12 kN/m"
+  longitudinal_resistance = "6 kN/m"
+''')
+    _, t = run_cli("target", str(f), "--json", json_out=True)
+    _, s = run_cli("stability", "--rail", "60E1", "--sleeper", "timber", "--sleeper-spacing", "0.55 m",
+                   "--radius", "700 m", "--loading", "passenger-coach", "--peak-resistance", "12 kN/m",
+                   "--longitudinal-resistance", "6 kN/m", "--json", json_out=True)
+    assert t["sections"][0]["allowable_rise_K"] == pytest.approx(s["allowable_rise_K"], rel=1e-9)
+    assert s["parameters"]["limit_resistance_kN_per_m"] < 12.0

@@ -55,8 +55,12 @@ def test_narrow_window_uses_middle():
 
 def test_empty_window_said_with_openers():
     r = _rec(allowable_rise_K=15.0)  # floor 42 > ceiling 38.448
-    assert not r.feasible
-    assert r.target_neutral_temperature_C is None and r.feasible_window_C is None
+    assert not r.feasible and r.feasible_window_C is None
+    # heat first (default): target at the heat floor plus the laying tolerance, the range starting at the floor
+    assert r.priority == "heat"
+    assert r.target_neutral_temperature_C == pytest.approx(42.0 + 3.0)
+    assert r.laying_range_C == pytest.approx((42.0, 48.0))
+    assert "cold side" in str(r.risk)
     assert r.shortfall_K == pytest.approx(42.0 - 38.448, abs=1e-2)
     assert any("allowable rise" in str(o) for o in r.openers)
     # resistance needed so the gap at the heat floor is 50 mm: E A (alpha * 52)^2 / 0.05
@@ -64,6 +68,15 @@ def test_empty_window_said_with_openers():
     assert any(f"{need:.1f} kN/m" in str(o) for o in r.openers)
     # the same words in US units: 3.55 K short = 6.4 delta-degF
     assert any("6.4 Δ°F more allowable rise" in o.text("us") for o in r.openers)
+
+
+def test_cold_priority_targets_the_cold_ceiling():
+    r = _rec(allowable_rise_K=15.0, priority="cold")
+    assert r.target_neutral_temperature_C == pytest.approx(r.cold_ceiling_C - 3.0)
+    assert r.laying_range_C[1] == pytest.approx(r.cold_ceiling_C)
+    assert "hot-weather speed restrictions" in str(r.risk)
+    with pytest.raises(Exception, match="heat, cold"):
+        _rec(priority="middle")
 
 
 def test_more_allowable_lowers_floor_only():

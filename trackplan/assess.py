@@ -107,11 +107,16 @@ class Assessor:
         Overrides every section's return period.
     distribution : str
         Extreme-value distribution (``gumbel`` or ``gev``).
+    priority : str
+        What an empty neutral window gives way to (``heat`` or ``cold``; see
+        :func:`trackplan.target.recommend_neutral`).
     """
 
-    def __init__(self, return_period_years: float | None = None, distribution: str = "gumbel"):
+    def __init__(self, return_period_years: float | None = None, distribution: str = "gumbel",
+                 priority: str = "heat"):
         self.return_period_years = return_period_years
         self.distribution = distribution
+        self.priority = priority
         self._records: dict = {}
         self._daily: dict = {}
         self._design: dict = {}
@@ -245,7 +250,7 @@ class Assessor:
         tgt = target_mod.recommend_neutral(
             clim.design_max_C, clim.design_min_C, float(stab.allowable_rise_K), section.drift_allowance_K,
             st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m, section.tension_stress_limit_Pa,
-            section.laying_tolerance_K,
+            section.laying_tolerance_K, priority=self.priority,
         )
         chk = check_mod.check_section(
             section.latest_neutral_temperature_C, section.drift_allowance_K, clim.design_max_C, clim.design_min_C,

@@ -220,8 +220,8 @@ def check_train(train: TrainPreset, where: str = "loading") -> None:
     """Refuse axle loads outside (0, 50 t] and geometry that does not describe a bogie vehicle."""
     lo, hi = AXLE_LOAD_RANGE_N
     if not lo <= train.axle_load_N <= hi:
-        raise InputError(f"axle load {train.axle_load_N / 1e3 / G:.1f} t is outside 1 kg .. 50 t "
-                         "(give the load of one axle)", where)
+        raise InputError(f"axle load {train.axle_load_N / 1e3:g} kN ({train.axle_load_N / 1e3 / G:.1f} t) is outside "
+                         f"{lo / 1e3:g} kN .. {hi / 1e3:.0f} kN (50 t); give the load of one axle", where)
     if not 1.0 <= train.axle_spacing_m <= 4.0:
         raise InputError(f"axle spacing {train.axle_spacing_m:g} m in a bogie is outside 1..4 m", where)
     if not train.axle_spacing_m < train.bogie_centres_m < train.vehicle_length_m - train.axle_spacing_m:
@@ -306,7 +306,8 @@ POSITIONS = ("coupling", "mid-vehicle")
 
 
 def load_case(name: str, sleeper: str, ballast: str, profile, steel, sleeper_spacing_m: float, *,
-              support_modulus_N_per_m2: float | None = None, misalignment_length_m: float = 10.0,
+              support_modulus_N_per_m2: float | None = None, axle_load_N: float | None = None,
+              misalignment_length_m: float = 10.0,
               peak_resistance_N_per_m: float = 20e3, where: str = "loading") -> LoadCase | None:
     """The load case of a train preset on a track, at its worst position; None for ``none``.
 
@@ -324,6 +325,8 @@ def load_case(name: str, sleeper: str, ballast: str, profile, steel, sleeper_spa
         Sleeper spacing [m] (track weight per metre).
     support_modulus_N_per_m2 : float, optional
         Track support modulus per rail [N/m**2]; the preset of the sleeper and ballast if None.
+    axle_load_N : float, optional
+        Axle load [N] instead of the preset's.
     misalignment_length_m : float
         Length of the misalignment [m] (the zone whose resistance decides the worst position).
     peak_resistance_N_per_m : float
@@ -332,6 +335,11 @@ def load_case(name: str, sleeper: str, ballast: str, profile, steel, sleeper_spa
     if name == NO_LOADING:
         return None
     train = get_train(name, where)
+    if axle_load_N is not None:
+        from dataclasses import replace
+
+        train = replace(train, axle_load_N=axle_load_N)
+        check_train(train, "axle_load")
     check_train(train, where)
     sup = support_presets()[(sleeper, ballast)]
     u = sup.support_modulus_N_per_m2 if support_modulus_N_per_m2 is None else support_modulus_N_per_m2

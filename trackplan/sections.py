@@ -32,8 +32,11 @@ section; every value that is a quantity carries its unit::
     youngs_modulus = "210 GPa"      # steel overrides (optional)
     alpha = "1.15e-5 1/K"
 
-    [sections.NV-101.stability]     # any stability parameter override (optional)
-    peak_resistance = "12 kN/m"
+    loading = "freight-22.5t"       # train of the stability analysis (see `trackplan stability --help`), or "none"
+
+    [sections.NV-101.stability]     # stability overrides (optional): peak_resistance, limit_resistance,
+    peak_resistance = "12 kN/m"     # peak_displacement, limit_displacement, longitudinal_resistance
+                                    # ("rigid" for full restraint), lateral_stiffness, support_modulus, axle_load
 
     [[sections.NV-101.events]]      # dated events (used by risk-day screening)
     date = 2022-04-02
@@ -58,6 +61,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from trackplan import rails, thermal, units
+from trackplan.track import OVERRIDES
 from trackplan.errors import InputError
 
 SLEEPERS = ("timber", "concrete", "steel")
@@ -108,15 +112,7 @@ _DEFAULTABLE = _KNOWN_FIELDS - {"name", "location", "chainage", "stability", "ev
 
 #: Stability overrides accepted in [sections.ID.stability], with their kind (one table with the
 #: command line: :data:`trackplan.track.OVERRIDES`; short lengths are written with a unit here).
-STABILITY_FIELDS = {
-    "peak_resistance": "force_per_length",
-    "limit_resistance": "force_per_length",
-    "peak_displacement": "length",
-    "limit_displacement": "length",
-    "longitudinal_resistance": "force_per_length",
-    "lateral_stiffness": "stiffness_per_area",
-    "support_modulus": "stress",
-}
+STABILITY_FIELDS = {name: ("length" if kind == "short_length" else kind) for name, (kind, _) in OVERRIDES.items()}
 
 
 @dataclass(frozen=True)

@@ -51,15 +51,20 @@ here without any assumption on their length). With ``longitudinal_resistance_N_p
 (full restraint) ``u = 0`` everywhere and the pre-buckling axial force is uniformly
 ``EA alpha dT``.
 
-Lateral resistance law (per metre of track), odd in ``w``, with ``s = |w| / w_p``::
+Lateral resistance law (per metre of track), odd in ``w``, with ``a = |w|``::
 
-    F = F_p s (2 - s)                                    s <= 1   (initial stiffness 2 F_p / w_p)
-    F = F_L + (F_p - F_L) (1 + t) exp(-t),  t = (|w| - w_p) / d    s > 1
+    F = F_p a / w_p                                     a <= w_p
+    F = F_p - (F_p - F_L) (a - w_p) / (w_L - w_p)       w_p < a <= w_L
+    F = F_L                                             a > w_L
 
-It rises to the peak ``F_p`` at ``w_p`` with zero slope, then softens smoothly (C1) to the limit
-``F_L``; ``d = (w_lim - w_p) / 4.744`` so that the excess over ``F_L`` has fallen to 5 % at
-``w_lim`` (default 100 mm, domain notes: limit reached at 75-125 mm). With
-``lateral_stiffness_N_per_m2`` given, ``F = k w`` (Winkler) instead. Longitudinal resistance per
+the piecewise-linear characteristic of the published buckling analyses (Kish and Samavedam,
+2013), with its two corners rounded by parabolas over 20 % of the segment before each (the
+Newton iterations need a continuous tangent; the peak comes out about 5 % lower, on the safe
+side). ``w_L`` is 100 mm in the presets (limit reached at 75-125 mm in push tests, from memory).
+With ``lateral_stiffness_N_per_m2`` given, ``F = k w`` (Winkler) instead. Under a train
+(:mod:`trackplan.loading`) ``F_p`` and ``F_L`` vary along the track: the axles press the track
+down and add friction, the uplift between bogies removes the base part of the resistance; the
+train stands where it leaves least resistance over the misalignment. Longitudinal resistance per
 rail: ``r(u) = r_max tanh(u / u_s)``, a smooth form of the usual bilinear law with slip
 displacement ``u_s`` (2 mm). Both laws are treated as nonlinear-elastic (no unloading branch),
 as in the usual analyses of a monotonically growing buckle.
@@ -80,7 +85,8 @@ milliseconds.
 
 Limits of the model (stated in every result's ``notes`` where they apply): the rail-sleeper frame
 effect is not included (``EI`` is that of the two rails alone, which is conservative); vehicle
-loads (uplift waves, lateral forces) are not modelled; only buckles symmetric about the
+loads are quasi-static vertical loads (no dynamic increment, no lateral wheel forces of curving);
+only buckles symmetric about the
 misalignment centre are traced. A perfect straight track (zero misalignment) is analysed by
 bifurcation: its upper critical rise is the rise at which the straight track's tangent
 stiffness becomes singular (Hetenyi's ``P = 2 sqrt(k EI)`` for a linear foundation), and its
@@ -90,7 +96,8 @@ When the path cannot be followed honestly the analysis raises :class:`StabilityE
 rise and displacement where it stopped, instead of returning a number: no converged state with the
 smallest step; the path turning back before a trough was found; a loss of stability of the traced
 symmetric path before its peak (a bifurcation to a shape this analysis does not follow). In a sweep
-of 200 random parameter sets across the preset ranges about 5 % end so. Beyond a trough (or on a
+of 200 random parameter sets across the preset ranges about 9 % end so (``bench`` marker of the
+test suite). Beyond a trough (or on a
 rising curve past twice the displacement limit) a stop is not an error; the result's ``notes`` say so.
 
 Critical rises and allowable rise
@@ -99,8 +106,11 @@ upper critical rise ``T_max``: the first peak of the curve. lower critical rise 
 trough after it, below which no buckled equilibrium exists; above it a disturbance (e.g. a
 passing train) can make the track jump to a buckled shape. The response is ``snap-through``
 when the curve drops by more than :data:`SNAP_THRESHOLD_K` after its peak, else
-``progressive``. The allowable rise follows a registered criterion (:data:`CRITERIA`; default
-``lower-critical``): see :func:`allowable_lower_critical`.
+``progressive``. The criticals the allowable uses are those of the loaded track (the train of the
+input's load case); :func:`with_unloaded` adds those of the empty track for comparison. The
+allowable rise follows a registered criterion (:data:`CRITERIA`; default ``practice-calibrated``,
+see :func:`allowable_practice_calibrated`; the uncalibrated ``lower-critical`` and
+``upper-quarter`` remain by name).
 
 References
 ----------
@@ -120,6 +130,11 @@ Batoz, J.-L., Dhatt, G. (1979). Incremental displacement algorithms for nonlinea
 through limit points).
 Esveld, C. (2001). *Modern Railway Track*, 2nd ed., MRT-Productions, ch. 7 (lateral resistance,
 track stability).
+UIC (2005). *Laying and maintenance of CWR track*, leaflet 720 R, 2nd ed. (safety criterion on
+the maximum and minimum buckling temperatures of the loaded track).
+Network Rail track standards, as quoted in published summaries of UK practice: CWR stressed to
+27 degC, undisturbed and fully ballasted, critical at a rail temperature of 53 degC (the
+calibration of the default criterion).
 """
 
 

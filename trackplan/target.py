@@ -41,6 +41,7 @@ import math
 from dataclasses import dataclass, field
 
 from trackplan import units
+from trackplan.errors import InputError
 
 #: Default position of the target in the feasible window (0 cold end, 1 hot end).
 DEFAULT_BIAS = 2.0 / 3.0
@@ -86,6 +87,8 @@ class TargetResult:
     narrow: bool = False
     explanation: list = field(default_factory=list)
     openers: list = field(default_factory=list)
+    priority: str = "heat"
+    risk: object = None  # trackplan.units.Phrase: the risk accepted when the window is empty
 
     @property
     def feasible_window_C(self) -> tuple[float, float] | None:
@@ -95,6 +98,10 @@ class TargetResult:
 def heat_floor(design_max_C: float, allowable_rise_K: float, drift_allowance_K: float) -> float:
     """Lowest acceptable neutral temperature, ``T_hot + d - dT_allow`` [degC]."""
     return design_max_C + drift_allowance_K - allowable_rise_K
+
+
+#: What an empty window gives way to: the first gets its constraint kept.
+PRIORITIES = ("heat", "cold")
 
 
 def stress_ceiling(design_min_C: float, tension_stress_limit_Pa: float, E_Pa: float, alpha_per_K: float) -> float:
@@ -124,6 +131,7 @@ def recommend_neutral(
     tension_stress_limit_Pa: float,
     laying_tolerance_K: float = 3.0,
     bias: float = DEFAULT_BIAS,
+    priority: str = "heat",
 ) -> TargetResult:
     """Feasible window, target neutral temperature and laying range.
 
@@ -147,11 +155,20 @@ def recommend_neutral(
         Half-width of the laying range [K].
     bias : float
         Position of the target in the window, 0 (cold end) to 1 (hot end).
+    priority : str
+        What an empty window gives way to (:data:`PRIORITIES`): ``heat`` (default) targets the
+        heat floor plus the laying tolerance, so that the laying range never goes below the
+        heat floor, and states the cold-side risk and its mitigation; ``cold`` targets the cold
+        ceiling less the tolerance and states the buckling risk. Heat first because a buckle
+        derails trains without warning, while tension breaks are found by inspection and track
+        circuits (common practice).
 
     Returns
     -------
     TargetResult
     """
+    if priority not in PRIORITIES:
+        raise InputError(f"unknown priority {priority!r}; accepted: {', '.join(PRIORITIES)}", "priority")
     lo = heat_floor(design_max_C, allowable_rise_K, drift_allowance_K)
     s_ceil = stress_ceiling(design_min_C, tension_stress_limit_Pa, E_Pa, alpha_per_K)
     g_ceil = gap_ceiling(design_min_C, gap_limit_m, E_Pa, area_m2, alpha_per_K, resistance_N_per_m)
@@ -188,7 +205,31 @@ def recommend_neutral(
                 (("rneed", r_need, "force_per_length", 1), ("r", resistance_N_per_m, "force_per_length", 1),
                  ("glim", gap_limit_m, "short_length", 0))))
         why.append(P("the window is empty: the heat floor is {short} above the cold ceiling", (dT("short", short),)))
-        return TargetResult(False, lo, hi, s_ceil, g_ceil, governing, None, None, short, False, why, openers)
+        tol = laying_tolerance_K
+        if priority == "heat":
+            target = lo + tol
+            rng = (lo, lo + 2 * tol)
+            tension = E_Pa * alpha_per_K * (target - design_min_C)
+            gap = E_Pa * area_m2 * (alpha_per_K * (target - design_min_C)) ** 2 / resistance_N_per_m
+            risk = P("heat first: target {t}, laying range {a} to {b}, never below the heat floor; on the cold side at "
+                     "{tmin} the thermal tension reaches {sig} (limit {slim}) and a break would open {gap} (limit "
+                     "{glim}): inspect and patrol in cold weather, test for rail defects before winter, and plan "
+                     "expansion devices or a stronger track to close the gap",
+                     (T("t", target), T("a", rng[0]), T("b", rng[1]), T("tmin", design_min_C),
+                      ("sig", tension, "stress", 0), ("slim", tension_stress_limit_Pa, "stress", 0),
+                      ("gap", gap, "short_length", 0), ("glim", gap_limit_m, "short_length", 0)))
+        else:
+            target = hi - tol
+            rng = (hi - 2 * tol, hi)
+            over = design_max_C - (target - drift_allowance_K) - allowable_rise_K
+            risk = P("cold first: target {t}, laying range {a} to {b}; at the design maximum {tmax} the rise above the "
+                     "drifted neutral exceeds the allowable by {over}: hot-weather speed restrictions and patrols are "
+                     "needed whenever the rail approaches {tcrit}",
+                     (T("t", target), T("a", rng[0]), T("b", rng[1]), T("tmax", design_max_C), dT("over", over),
+                      T("tcrit", target - drift_allowance_K + allowable_rise_K)))
+        why.append(risk)
+        return TargetResult(False, lo, hi, s_ceil, g_ceil, governing, target, rng, short, False, why, openers,
+                            priority, risk)
 
     width = hi - lo
     tol = laying_tolerance_K
@@ -208,7 +249,7 @@ def recommend_neutral(
             "window {lo} to {hi} is narrower than the laying range +/-{tol}: target its middle and lay within the "
             "window itself; consider a stronger track to widen it",
             (T("lo", lo), T("hi", hi), dT("tol", tol))))
-    return TargetResult(True, lo, hi, s_ceil, g_ceil, governing, target, rng, 0.0, narrow, why, [])
+    return TargetResult(True, lo, hi, s_ceil, g_ceil, governing, target, rng, 0.0, narrow, why, [], priority)
 
 
 @dataclass(frozen=True)

@@ -26,7 +26,7 @@ from trackplan.errors import InputError
 # Constants of the method
 # ----------------------------------------------------------------------------------------------
 
-#: Default initial misalignment amplitude [m] and length [m] (domain notes: 10-50 mm over 6-12 m).
+#: Default initial misalignment amplitude [m] and length [m] (track in service has misalignments of some 10-50 mm over 6-12 m, from memory).
 DEFAULT_MISALIGNMENT_M = 0.020
 DEFAULT_MISALIGNMENT_LENGTH_M = 10.0
 #: Trigger misalignment used to trace the post-buckling curve of a perfect track [m].
@@ -237,6 +237,7 @@ class ResistancePreset:
     longitudinal_resistance_N_per_m: float
     slip_displacement_m: float
     source: str
+    confirmed: bool = False
 
 
 @lru_cache(maxsize=1)
@@ -257,6 +258,7 @@ def presets() -> dict[tuple[str, str, str], ResistancePreset]:
             longitudinal_resistance_N_per_m=float(row["longitudinal_resistance_kN_per_m"]) * 1e3,
             slip_displacement_m=float(row["slip_displacement_mm"]) * 1e-3,
             source=row["source"].strip(),
+            confirmed=row.get("confirmed", "no").strip() == "yes",
         )
         out[(p.sleeper, p.ballast, p.shoulder)] = p
     return out
@@ -364,6 +366,7 @@ OVERRIDES = {
     "longitudinal_resistance": ("force_per_length", "longitudinal_resistance_N_per_m"),
     "lateral_stiffness": ("stiffness_per_area", "lateral_stiffness_N_per_m2"),
     "support_modulus": ("stress", None),
+    "axle_load": ("force", None),
 }
 
 
@@ -444,6 +447,7 @@ def build_track(profile, steel, *, sleeper: str, ballast: str, shoulder: str = "
     else:
         case = loading_mod.load_case(
             name, sleeper, ballast, profile, steel, spacing, support_modulus_N_per_m2=ov.get("support_modulus"),
+            axle_load_N=ov.get("axle_load"),
             misalignment_length_m=inp.misalignment_length_m, peak_resistance_N_per_m=inp.peak_resistance_N_per_m,
             where=where)
     from dataclasses import replace

@@ -12,7 +12,7 @@ from rich.table import Table
 
 from trackplan import CAUTION, units
 from trackplan.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, print_caution
-from trackplan.cli.network import (DISTRIBUTION_OPTION, RETURN_PERIOD_OPTION, SECTIONS_ARG, STRICT_OPTION,
+from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, RETURN_PERIOD_OPTION, SECTIONS_ARG, STRICT_OPTION,
                                    load_and_assess, report_problems)
 
 _STYLE = {"act": "bold red", "watch": "yellow", "ok": "green"}
@@ -105,6 +105,7 @@ def check_cmd(
     out: Optional[Path] = typer.Option(None, "--out", help="Folder for check.csv, a force-envelope PNG per section and check_summary.html."),
     return_period: Optional[float] = RETURN_PERIOD_OPTION,
     distribution: str = DISTRIBUTION_OPTION,
+    priority: str = PRIORITY_OPTION,
     strict: bool = STRICT_OPTION,
     system: UnitSystem = UNITS_OPTION,
     as_json: bool = JSON_OPTION,
@@ -124,7 +125,7 @@ def check_cmd(
     """
     from trackplan.check import rank_key
 
-    results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution)
+    results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution, priority)
     results = sorted(results, key=lambda a: rank_key(a.check))
     written = write_check_outputs(out, results, sections_file, system.value) if out is not None else []
     if as_json:

@@ -12,11 +12,13 @@ from trackplan.errors import InputError
 
 SECTIONS_ARG = typer.Argument(..., help="Section file (TOML): [defaults] and one [sections.ID] table per welded section.")
 STRICT_OPTION = typer.Option(False, "--strict", help="Refuse the whole file if any section is bad (default: assess the good ones, report the bad, exit 2).")
+PRIORITY_OPTION = typer.Option("heat", "--priority", help="When a section's neutral window is empty: heat (default: never below the heat floor, cold-side risk stated) or cold.")
 RETURN_PERIOD_OPTION = typer.Option(None, "--return-period", help="Return period of the design temperatures in years (default: each section's, 50).")
 DISTRIBUTION_OPTION = typer.Option("gumbel", "--distribution", help="Extreme-value distribution for the design temperatures: gumbel or gev.")
 
 
-def load_and_assess(path: Path, strict: bool, return_period: float | None, distribution: str):
+def load_and_assess(path: Path, strict: bool, return_period: float | None, distribution: str,
+                    priority: str = "heat"):
     """Read the section file and assess its sections.
 
     Returns ``(assessments, problems)``; with ``strict`` the first problem is raised.
@@ -28,8 +30,10 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
         raise InputError(f"{return_period:g} years is outside 2..1000", "--return-period")
     if distribution not in ("gumbel", "gev"):
         raise InputError(f"unknown distribution {distribution!r}; accepted: gumbel, gev", "--distribution")
+    if priority not in ("heat", "cold"):
+        raise InputError(f"unknown priority {priority!r}; accepted: heat, cold", "--priority")
     sf = load_sections(path, strict=strict)
-    assessor = Assessor(return_period, distribution)
+    assessor = Assessor(return_period, distribution, priority)
     if progress_enabled() and len(sf.sections) > 3:
         from rich.progress import Progress
 

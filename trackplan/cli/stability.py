@@ -95,6 +95,7 @@ def stability_cmd(
         None, "--lateral-stiffness", help="Use a linear (Winkler) lateral foundation of this modulus instead of the peak/limit law, e.g. '2000 kN/m**2'."),
     sleeper_spacing: Optional[str] = typer.Option(None, "--sleeper-spacing", help="Sleeper spacing, e.g. '0.6 m' (default: the sleeper type's reference spacing); scales the preset resistances."),
     loading: str = typer.Option("freight-22.5t", "--loading", help=f"Train standing on the track (its axles press the track down, it lifts between bogies): {_LOADING}."),
+    axle_load: Optional[str] = typer.Option(None, "--axle-load", help="Override the axle load of the train, e.g. '250 kN' (at most 50 t, 490 kN)."),
     support_modulus: Optional[str] = typer.Option(None, "--support-modulus", help="Override the track support modulus per rail, e.g. '30 MPa' (N/mm per mm of rail)."),
     criterion: str = typer.Option("practice-calibrated", "--criterion", help=f"Allowable-rise criterion: {_CRITERIA}."),
     profiles_file: Optional[Path] = typer.Option(None, "--profiles-file", help="TOML file with profiles of your own."),
@@ -137,7 +138,8 @@ def stability_cmd(
                                      (peak_displacement, "peak_displacement", "--peak-displacement", False),
                                      (limit_displacement, "limit_displacement", "--limit-displacement", False),
                                      (lateral_stiffness, "lateral_stiffness", "--lateral-stiffness", False),
-                                     (support_modulus, "support_modulus", "--support-modulus", False)):
+                                     (support_modulus, "support_modulus", "--support-modulus", False),
+                                     (axle_load, "axle_load", "--axle-load", False)):
         from trackplan.track import OVERRIDES
 
         v = take(text, OVERRIDES[name][0], option, zero)

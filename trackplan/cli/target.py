@@ -10,7 +10,7 @@ from rich.table import Table
 
 from trackplan import CAUTION, units
 from trackplan.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, print_caution
-from trackplan.cli.network import (DISTRIBUTION_OPTION, RETURN_PERIOD_OPTION, SECTIONS_ARG, STRICT_OPTION,
+from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, RETURN_PERIOD_OPTION, SECTIONS_ARG, STRICT_OPTION,
                                    load_and_assess, report_problems)
 
 
@@ -29,6 +29,8 @@ def target_json(a) -> dict:
         "cold_ceiling_C": t.cold_ceiling_C,
         "governing_cold_limit": t.governing_cold,
         "shortfall_K": t.shortfall_K,
+        "priority": t.priority,
+        "accepted_risk": None if t.risk is None else str(t.risk),
         "design_max_rail_temperature_C": a.climate.design_max_C,
         "design_min_rail_temperature_C": a.climate.design_min_C,
         "design_basis": a.climate.design.design_basis,
@@ -62,7 +64,8 @@ def print_targets(results, s: str) -> None:
         rng = f"{T(t.laying_range_C[0])} – {T(t.laying_range_C[1])}" if t.laying_range_C else "–"
         table.add_row(a.section.id, T(a.climate.design_max_C), T(a.climate.design_min_C),
                       units.number(a.allowable_rise_K, "temperature_difference", s), win,
-                      T(t.target_neutral_temperature_C) if t.feasible else "–", rng, t.governing_cold)
+                      T(t.target_neutral_temperature_C) + ("" if t.feasible else f" ({t.priority} first)"), rng,
+                      t.governing_cold)
     console.print(table)
     for a in results:
         t = a.target
@@ -70,6 +73,8 @@ def print_targets(results, s: str) -> None:
             console.print(f"[bold red]{a.section.id}[/]: no neutral temperature satisfies both heat and cold limits "
                           f"({units.fmt(t.shortfall_K, 'temperature_difference', s)} short). What would open the window:",
                           highlight=False)
+            if t.risk is not None:
+                console.print(f"  {t.risk.text(s)}", highlight=False, markup=False)
             for o in t.openers:
                 console.print(f"  • {o.text(s)}", highlight=False, markup=False)
         elif t.narrow:
@@ -89,6 +94,7 @@ def target_cmd(
     sections_file: Path = SECTIONS_ARG,
     return_period: Optional[float] = RETURN_PERIOD_OPTION,
     distribution: str = DISTRIBUTION_OPTION,
+    priority: str = PRIORITY_OPTION,
     strict: bool = STRICT_OPTION,
     system: UnitSystem = UNITS_OPTION,
     as_json: bool = JSON_OPTION,
@@ -104,7 +110,7 @@ def target_cmd(
 
     Example: trackplan target examples/network.toml --units us
     """
-    results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution)
+    results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution, priority)
     if as_json:
         emit_json({"sections": [target_json(a) for a in results], "problems": [str(p) for p in problems],
                    "caution": CAUTION})
