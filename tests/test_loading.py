@@ -98,12 +98,13 @@ def test_section_file_loading_and_limit_displacement(tmp_path):
 [defaults]
 climate = "{climate.as_posix()}"
 rail = "60E1"
-neutral_temperature = "30 degC"
 [sections.A]
+neutral_temperature = "30 degC"
 loading = "none"
   [sections.A.stability]
   limit_displacement = "60 mm"
 [sections.B]
+neutral_temperature = "30 degC"
 loading = "tram"
 ''')
     sf = load_sections(f)
