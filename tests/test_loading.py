@@ -109,6 +109,6 @@ loading = "tram"
 ''')
     sf = load_sections(f)
     assert [s.id for s in sf.sections] == ["A"]
-    assert len(sf.problems) == 1 and "loading" in str(sf.problems[0]) and "section B" in str(sf.problems[0])
+    assert len(sf.problems) == 1 and "loading" in str(sf.problems[0]) and "sections.B" in str(sf.problems[0])
     inp = Assessor().track_input(sf.sections[0])
     assert inp.loading is None and inp.limit_displacement_m == pytest.approx(0.06)
