@@ -141,7 +141,7 @@ def test_longitudinal_resistance_raises_lower_critical():
 
 
 def test_consolidated_concrete_tangent_magnitude_against_uk_practice():
-    # Network Rail track standards (as quoted in DOMAIN.md section 6): undisturbed, fully ballasted
+    # Network Rail track standards (docs/sources.md; from memory): undisturbed, fully ballasted
     # track stressed to 27 degC tolerates rail temperatures up to 53 degC, a rise of 26 K, as a design
     # limit with margin below the actual buckling rise. The model must find that rise allowable and
     # both critical rises above it.
@@ -239,7 +239,7 @@ def test_preset_names_and_every_row_has_a_source():
     for p in st.presets().values():
         assert p.source
         assert 0 < p.limit_resistance_N_per_m <= p.peak_resistance_N_per_m
-    # single-sleeper push test 20 kN (concrete), IJTE article 13359 (DOMAIN.md 6), at 0.60 m spacing
+    # single-sleeper push test 20 kN (concrete), IJTE article 13359 (docs/sources.md), at 0.60 m spacing
     assert st.get_preset("concrete", "consolidated").peak_resistance_N_per_m == pytest.approx(20e3 / 0.6, rel=0.01)
 
 
