@@ -4,10 +4,10 @@ Run from the repository root::
 
     python climate_samples/generate.py
 
-It writes each record twice, byte for byte the same: into ``climate_samples/``
-(for people browsing the repository) and into ``trackplan/data/climate/``
-(package data, read by ``trackplan demo`` after ``pip install .``). The files
-are gzip-compressed CSV in trackplan's own format (``trackplan.weather``).
+It writes each record into ``climate_samples/``, the one copy: the package
+ships this folder (``setup.py``; found through ``trackplan.samples``), so
+``trackplan demo`` reads it after ``pip install .`` too. The files are
+gzip-compressed CSV in trackplan's own format (``trackplan.weather``).
 Everything is fictional: invented station names, invented but plausible
 coordinates, weather drawn from a seeded random generator. Do not use these
 records to plan real track.
@@ -103,7 +103,7 @@ SEED = 20240611
 START, END = "1995-01-01", "2024-12-31"
 
 ROOT = Path(__file__).resolve().parent.parent
-OUT_DIRS = (ROOT / "climate_samples", ROOT / "trackplan" / "data" / "climate")
+OUT_DIR = ROOT / "climate_samples"
 
 
 @dataclass(frozen=True)
@@ -342,11 +342,9 @@ def main() -> None:
     for i, st in enumerate(STATIONS):
         rng = np.random.default_rng(SEED + i)
         data = render(st, rng)
-        for d in OUT_DIRS:
-            d.mkdir(parents=True, exist_ok=True)
-            tmp = d / (file_name(st) + ".tmp")
-            tmp.write_bytes(data)
-            tmp.replace(d / file_name(st))
+        tmp = OUT_DIR / (file_name(st) + ".tmp")
+        tmp.write_bytes(data)
+        tmp.replace(OUT_DIR / file_name(st))
         print(f"{file_name(st)}: {st.name} ({st.climate}), {len(data) / 1e6:.2f} MB")
 
 

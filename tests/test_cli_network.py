@@ -34,7 +34,7 @@ def test_demo_writes_report_and_figures_are_consistent(demo_out):
     html = (out / "check_summary.html").read_text()
     assert "Planning aid only" in html and "data:image/png;base64," in html
     # Re-derive every figure from the CSV's own inputs (thermal force P = E A alpha dT,
-    # DOMAIN.md 2; break gap P^2 / (E A r), Esveld 2001 ch. 7).
+    # docs/methods/thermal-force.md, Esveld 2001 ch. 7; break gap P^2 / (E A r), Esveld 2001 ch. 7).
     from trackplan import rails, thermal
 
     for _, r in df.iterrows():

@@ -80,7 +80,7 @@ def test_json_daily_record_gev():
     assert r.exit_code == 0, r.output
     js = json.loads(r.stdout)
     assert js["design_basis"] == "gev" and js["return_period_years"] == 25.0
-    # daily-extremes path: rail minimum = air minimum (DOMAIN.md 4)
+    # daily-extremes path: rail minimum = air minimum (docs/methods/rail-temperature.md)
     assert all(a["min_rail_temperature_C"] == a["min_air_temperature_C"] for a in js["annual"])
     assert any("clear sky" in w for w in js["warnings"])
 

@@ -183,8 +183,9 @@ def test_terminal_summary(run_cli, tmp_path, greensboro):
 
 def test_wrapping_months_and_trend_on_30_years(run_cli, tmp_path):
     # Gullhaven Quay: the bundled synthetic southern-hemisphere record, 1995-2024
-    root = Path(__file__).resolve().parents[1]
-    clim = root / "trackplan" / "data" / "climate" / "gullhaven_quay_hourly.csv.gz"
+    from trackplan.weather import sample_records
+
+    clim = sample_records()["gullhaven_quay"]
     f = tmp_path / "gq.toml"
     f.write_text(f"""
 [sections.GQ-X]

@@ -36,14 +36,14 @@ def plan(**kw):
 
 
 def test_about_1_15_mm_per_100_m_per_K():
-    # about 1.15 mm per 100 m per K (common practice; DOMAIN.md section 8)
+    # about 1.15 mm per 100 m per K (common practice; docs/methods/destressing.md)
     assert float(d.adjustment_length(100.0, 20.0, 21.0, EU.alpha_per_K)) * 1e3 == pytest.approx(1.15, abs=0.005)
     p = plan(length_m=100.0, rail_temperature_C=20.0, target_neutral_C=21.0)
     assert p.extension_m * 1e3 == pytest.approx(1.15, abs=0.005)
 
 
 def test_about_0_078_in_per_100_ft_per_10_degF():
-    # about 0.078 in per 100 ft per 10 degF (common practice; DOMAIN.md section 8)
+    # about 0.078 in per 100 ft per 10 degF (common practice; docs/methods/destressing.md)
     p = d.plan_destressing(length_m=100 * FT, rail_temperature_C=(60 - 32) / 1.8, target_neutral_C=(70 - 32) / 1.8,
                            area_m2=rails.get_profile("136RE").area_m2, E_Pa=NA.E_Pa, alpha_per_K=NA.alpha_per_K)
     assert p.extension_m / IN == pytest.approx(0.078, abs=0.0005)

@@ -8,8 +8,7 @@ from trackplan import rails
 from trackplan.errors import InputError
 
 # Values quoted from the profile standards (EN 13674-1 Annex A; AREMA MRE ch. 4; AS 1085.1)
-# as published in catalogues and open data files, collected in the project's domain notes
-# (DOMAIN.md section 2a). Key: name -> (area cm2, mass kg/m, I vertical cm4, I lateral cm4,
+# as published in catalogues and open data files (docs/sources.md, rail profiles). Key: name -> (area cm2, mass kg/m, I vertical cm4, I lateral cm4,
 # height, foot, head mm).
 PUBLISHED_SI = {
     "60E1": (76.70, 60.21, 3038.3, 512.3, 172, 150, 72),

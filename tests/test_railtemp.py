@@ -45,10 +45,11 @@ def test_greensboro_clear_calm_hot_excess_in_published_range(greensboro, azimuth
     """Rail minus air on clear, calm, hot hours of the Greensboro NC TMY3 (pvlib's copy of the
     US NSRDB file 723170TYA) against the published offsets.
 
-    Source: Bruzek et al. (2015), JRC2015-5720, as quoted in DOMAIN.md 4: rail runs about
+    Source: Bruzek et al. (2015), JRC2015-5720 (docs/sources.md): rail runs about
     30 degF (16.7 K) above air, measured peaks up to 35 degF (19 K) on very warm days.
     Band: the median must lie within 17-19 K widened by 2.5 K each side, the spread a
-    heat-balance model shows against measured daily maxima ("within a few K", DOMAIN.md 4);
+    heat-balance model shows against measured daily maxima ("within a few K", from memory of the
+    published rail temperature models; docs/methods/rail-temperature.md);
     90 % of the hours must stay under 24 K.
     """
     import pvlib
@@ -73,7 +74,7 @@ def test_greensboro_clear_calm_hot_excess_in_published_range(greensboro, azimuth
 
 
 def test_night_rail_at_or_slightly_below_air(greensboro):
-    """DOMAIN.md 4: at night the rail runs at or slightly below the air (radiative cooling)."""
+    """docs/methods/rail-temperature.md: at night the rail runs at or slightly below the air (radiative cooling)."""
     df, meta = greensboro
     site = rt.RailSite(meta["latitude_deg"], meta["longitude_deg"], meta["elevation_m"])
     rail = rt.rail_temperature_hourly(df, meta, P60, site)
@@ -89,7 +90,7 @@ def test_night_rail_at_or_slightly_below_air(greensboro):
 
 
 def _balance_residual(T_C, air_C, q, site, params, geometry, ghi):
-    """The nonlinear balance of DOMAIN.md 4 written out again, for brentq."""
+    """The nonlinear balance of docs/methods/rail-temperature.md written out again, for brentq."""
     sigma = 5.670374419e-8
     ta = air_C + 273.15
     s = 1 - site.shade_factor
@@ -121,7 +122,7 @@ def test_transient_converges_to_brentq_steady_state(shade, air):
     T = rt.transient_rail_temperature(prep, P60, site)
     params = rt.DEFAULT_PARAMETERS
     g = rt.rail_geometry(P60)
-    # absorbed sun from the silhouette formula of DOMAIN.md 4
+    # absorbed sun from the silhouette formula of docs/methods/rail-temperature.md
     e, daz = math.radians(50.0), math.radians(200.0 - 60.0)
     sil = g.foot_width_m * math.sin(e) + g.height_m * math.cos(e) * abs(math.sin(daz))
     w_sky, w_gnd = rt.diffuse_width_m(g)
@@ -166,7 +167,7 @@ def test_exponential_step_matches_fine_rk4_of_nonlinear_ode():
         ref.append(Tk)
     ref = np.array(ref) - 273.15
     assert np.max(np.abs(T - ref)) < 0.3
-    # and the rail lags the forcing: the time constant is of the order of an hour (DOMAIN.md 4)
+    # and the rail lags the forcing: the time constant is of the order of an hour (docs/methods/rail-temperature.md)
     tau_h = C / (c.g_conv_W_per_m_K.mean() + 4 * c.g_rad_W_per_m_K4 * 300.0**3) / 3600
     assert 0.3 < tau_h < 3.0
 
@@ -245,7 +246,7 @@ def test_solar_azimuth_at_noon_faces_equator():
 
 
 def test_silhouette_north_south_vs_east_west():
-    """DOMAIN.md 4: N-S track catches low sun on its side, E-W track mostly on its top."""
+    """docs/methods/rail-temperature.md: N-S track catches low sun on its side, E-W track mostly on its top."""
     g = rt.rail_geometry(P60)
     low_east = (10.0, 90.0)
     ns = rt.beam_silhouette_m(*low_east, 0.0, g)
@@ -268,7 +269,7 @@ def test_hull_geometry_60E1():
 
 
 def test_log_wind_profile_about_a_third():
-    """DOMAIN.md 4: the log profile gives roughly a third of the 10 m wind at 0.2 m:
+    """docs/methods/rail-temperature.md: the log profile gives roughly a third of the 10 m wind at 0.2 m:
     ln(0.2/0.03)/ln(10/0.03) = 0.327 (Stull 1988, 9.7)."""
     assert rt.wind_at_rail(3.0) == pytest.approx(3.0 * math.log(0.2 / 0.03) / math.log(10 / 0.03))
     assert 0.30 < rt.wind_at_rail(1.0) < 0.36
@@ -376,7 +377,7 @@ def test_daily_path_summer_excess_and_min():
     excess = out.rail_max_C - out.air_max_C
     summer = excess[out.index.month.isin([6, 7])]
     # clear sky, 3 m/s breeze: warmer than the 16.7 K rule, within a few K of the 19 K
-    # measured peaks (Bruzek et al. 2015; DOMAIN.md 4 calls the path conservative)
+    # measured peaks (Bruzek et al. 2015; docs/methods/rail-temperature.md: the path is conservative)
     assert 16.7 < summer.mean() < 25.0
     assert excess[out.index.month == 12].mean() < summer.mean()
     assert any("clear sky" in w for w in out.attrs["warnings"])

@@ -8,6 +8,7 @@ from pathlib import Path
 import pytest
 
 from trackplan.errors import InputError
+from trackplan.samples import example_network
 from trackplan.sections import load_sections
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -41,10 +42,12 @@ def test_example_network_reads():
     assert kp3.steel.name == "north-american"
 
 
-def test_package_copy_of_example_matches():
-    pkg = ROOT / "trackplan" / "data" / "examples" / "network.toml"
-    want = EXAMPLE.read_text().replace("../climate_samples/", "../climate/")
-    assert pkg.read_text() == want
+def test_example_network_is_the_one_copy_and_finds_its_climates():
+    # trackplan demo reads examples/network.toml itself (trackplan.samples), and its
+    # climate paths reach the one copy of the sample climates beside it
+    assert example_network().resolve() == EXAMPLE.resolve()
+    sf = load_sections(example_network(), today=dt.date(2026, 12, 1))
+    assert {s.climate_path.resolve().parent for s in sf.sections} == {CLIMATE.parent.resolve()}
 
 
 @pytest.mark.parametrize(

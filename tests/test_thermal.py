@@ -14,7 +14,7 @@ NA = thermal.STEEL_PRESETS["north-american"]
 
 
 def test_stress_per_kelvin_rule_of_thumb():
-    # About 2.4 MPa per K of stress (common practice, DOMAIN.md 2).
+    # About 2.4 MPa per K of stress (common practice, docs/methods/thermal-force.md).
     assert thermal.thermal_stress(1.0, EU.E_Pa, EU.alpha_per_K) / 1e6 == pytest.approx(2.4, rel=0.03)
     assert thermal.thermal_stress(1.0, NA.E_Pa, NA.alpha_per_K) / 1e6 == pytest.approx(2.4, rel=0.03)
 

@@ -1,7 +1,7 @@
 """Destressing and adjustment of continuous welded rail: the crew's figures.
 
 Four ways of setting the neutral (stress-free) temperature of a welded string
-to a target ``T_t`` (DOMAIN.md section 8):
+to a target ``T_t`` (docs/methods/destressing.md):
 
 ``free``
     The string is unclipped and lies free on rollers at the measured rail
@@ -513,7 +513,7 @@ class DestressPlan:
     warning_codes: list = field(default_factory=list)
 
     def as_json(self) -> dict:
-        """The plan with units in the key names (CONVENTIONS.md)."""
+        """The plan with units in the key names (docs/glossary.md)."""
         out = {
             "mode": self.mode,
             "pull": self.pull,

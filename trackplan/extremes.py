@@ -1,7 +1,7 @@
 """Design extremes: annual rail temperature extremes, extreme-value fits, return levels.
 
 Planning needs the rail temperature that is reached with a stated chance, not
-the hottest day of one year (DOMAIN.md 5). From daily rail extremes (see
+the hottest day of one year (docs/methods/design-extremes.md). From daily rail extremes (see
 :func:`trackplan.railtemp.daily_rail_extremes`) this module takes
 
 * the annual maximum and minimum of each complete-enough year

@@ -82,7 +82,7 @@ class RailProfile:
         return "AREMA" in self.standard
 
     def as_json(self) -> dict:
-        """Catalogue row with units in the key names (CONVENTIONS.md)."""
+        """Catalogue row with units in the key names (docs/glossary.md)."""
         return {
             "name": self.name,
             "area_cm2": round(self.area_m2 * 1e4, 4),

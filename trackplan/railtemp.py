@@ -38,7 +38,7 @@ defined, or geometry:
 
 * ``ballast_excess_K_per_W_m2`` (sunlit ballast surface above air temperature
   per W/m**2 of global irradiance) was lowered from the 15 K at 850 W/m**2 of
-  the DOMAIN.md quick balance to 10 K at 850 W/m**2, so that the median excess
+  the first quick balance (docs/methods/rail-temperature.md) to 10 K at 850 W/m**2, so that the median excess
   of rail over air temperature on clear (GHI > 700 W/m**2 and > 0.8 of clear
   sky), calm (wind at 10 m <= 3 m/s), hot (air >= 28 degC) hours of the
   Greensboro NC typical-year file shipped with pvlib is about 19-20 K, at the
@@ -49,7 +49,7 @@ defined, or geometry:
   rail estimated from its nominal dimensions (about 0.69 m) less the foot
   underside resting on pads and sleepers (0.15 m) is 0.94 of its convex-hull
   perimeter (0.575 m).
-* ``daily_wind_10m_m_s`` = 3 m/s is the wind of the DOMAIN.md quick balance.
+* ``daily_wind_10m_m_s`` = 3 m/s is the wind of that quick balance (a light afternoon breeze; not tuned).
 
 Nothing was fitted to measured rail temperatures, which the project does not
 have; the model's daily maximum excess on clear summer days comes out about
@@ -131,11 +131,11 @@ class RailSite:
         view (the hidden part is taken at air temperature).
     absorptivity : float
         Solar absorptivity of the rail surface, 0.8 by default for weathered
-        (rusty) rail; DOMAIN.md 4 gives 0.6-0.9 from bright to rusty rail
+        (rusty) rail; 0.6-0.9 from bright to rusty rail (docs/methods/rail-temperature.md)
         (from memory).
     emissivity : float
         Long-wave emissivity of the rail surface, 0.85 by default (oxidised
-        steel, from memory; DOMAIN.md 4 gives about 0.8-0.9).
+        steel, from memory; about 0.8-0.9, docs/methods/rail-temperature.md).
     """
 
     latitude_deg: float
@@ -170,12 +170,12 @@ class HeatBalanceParameters:
     Attributes
     ----------
     specific_heat_J_per_kg_K : float
-        Specific heat of rail steel, 480 J/(kg K) (DOMAIN.md 4 gives 460-490,
+        Specific heat of rail steel, 480 J/(kg K) (460-490 from memory,
         from memory; carbon steel near 20-40 degC, Incropera & DeWitt table A.1,
         434-480).
     rail_height_above_ballast_m : float
         Height of the rail's centre of wind exposure above the ballast, 0.2 m
-        (DOMAIN.md 4).
+        (docs/methods/rail-temperature.md; from memory).
     anemometer_height_m : float
         Height of the station's wind measurement, 10 m (WMO-No. 8 standard
         exposure).
@@ -188,20 +188,20 @@ class HeatBalanceParameters:
     ballast_excess_K_per_W_m2 : float
         Sunlit ballast surface temperature above air per W/m**2 of unshaded
         global irradiance: 10 K at 850 W/m**2 (tuned from the 15 K of the
-        DOMAIN.md 4 quick balance; see the module docstring). At night the
+        first quick balance; see the module docstring). At night the
         ballast is taken at air temperature.
     ground_albedo : float
         Solar reflectance of the ballast, 0.2 (common value for grey crushed
         stone and open ground; Duffie & Beckman 2013, 2.20, from memory).
     sky_view : float
         Share of the rail's long-wave view that is sky on open track, 0.5;
-        the other half is ballast and sleepers (DOMAIN.md 4).
+        the other half is ballast and sleepers (docs/methods/rail-temperature.md).
     default_wind_10m_m_s : float
         Wind at 10 m assumed where an hourly record has none (with a warning),
         2 m/s.
     daily_wind_10m_m_s : float
         Wind at 10 m assumed at the sunniest hour on the daily-extremes path,
-        3 m/s (the DOMAIN.md 4 quick balance; a light afternoon breeze).
+        3 m/s (a light afternoon breeze; docs/methods/rail-temperature.md).
     max_step_s : float
         A time step longer than this (a gap) restarts the transient at the
         steady state, 3 h.
@@ -386,7 +386,7 @@ def beam_silhouette_m(sun_elevation_deg, sun_azimuth_deg, track_azimuth_deg: flo
     Notes
     -----
     A long prism of foot width ``b`` and height ``H`` seen from the sun's
-    direction (DOMAIN.md 4). North-south track catches low sun on its side;
+    direction (docs/methods/rail-temperature.md). North-south track catches low sun on its side;
     east-west track mostly on its top.
     """
     e = np.radians(np.asarray(sun_elevation_deg, dtype=float))
@@ -577,7 +577,7 @@ def steady_rail_temperature(
 
     Notes
     -----
-    Per metre of rail (DOMAIN.md 4)::
+    Per metre of rail (docs/methods/rail-temperature.md)::
 
         0 = a S - h_c P_c (T - T_air) - eps sigma P_r (T**4 - T_env**4)
         S = (1 - s) [DNI (b sin e + H cos e |sin(az_sun - az_track)|)
@@ -1190,7 +1190,7 @@ def daily_extremes_path(daily, meta: dict, profile: RailProfile, site: RailSite,
     :func:`sunshine_factor` or :func:`cloud_factor` where the record gives
     them. Clear sky, the air maximum at the sun's peak and a light breeze make
     the path conservative (warm). ``rail_min = tmin``: at night the rail runs at
-    or slightly below the air (DOMAIN.md 4).
+    or slightly below the air (docs/methods/rail-temperature.md).
     """
     import pandas as pd
 
@@ -1306,14 +1306,14 @@ METHODS: dict[str, RailTemperatureMethod] = {
         "heat-balance",
         "hourly transient heat balance of the rail (sun on the silhouette, wind, long-wave, heat capacity)",
         ("hourly",),
-        "lumped balance, DOMAIN.md 4; Swinbank (1963); McAdams (1954); pvlib (solar position, Erbs, Ineichen)",
+        "lumped balance, docs/methods/rail-temperature.md; Swinbank (1963); McAdams (1954); pvlib (solar position, Erbs, Ineichen)",
         _heat_balance_daily,
     ),
     "daily-extremes": RailTemperatureMethod(
         "daily-extremes",
         "daily max air + steady solar excess at the clear-sky peak of that date; daily min rail = min air",
         ("daily", "hourly"),
-        "DOMAIN.md 4; Ineichen & Perez (2002) clear sky; FAO-56 eq. 35; Kasten & Czeplak (1980)",
+        "docs/methods/rail-temperature.md; Ineichen & Perez (2002) clear sky; FAO-56 eq. 35; Kasten & Czeplak (1980)",
         _daily_extremes_method,
     ),
     "air-plus-30F": RailTemperatureMethod(

@@ -80,11 +80,11 @@ DEFAULTS = {
     "ballast": "consolidated",
     "shoulder": "full",
     "track_azimuth": "0 deg",
-    "misalignment": "20 mm",  # DOMAIN.md 6: misalignments 10-50 mm over 6-12 m
+    "misalignment": "20 mm",  # misalignments 10-50 mm over 6-12 m (from memory; docs/methods/stability.md)
     "misalignment_length": "10 m",
     "shade": 0.0,
     # Allowance for the fall of neutral temperature in service. North American practice allows
-    # tens of degF (a 30 degF reduction allowance appears in US federal research, DOMAIN.md 7);
+    # tens of degF (a 30 degF reduction allowance appears in US federal research, docs/methods/neutral-target.md);
     # 5 K is a planning default for well-maintained track, to be set by the railway.
     "drift_allowance": "5 K",
     # A break gap over about 50 mm (2 in) is commonly treated as dangerous (common practice).

@@ -264,7 +264,7 @@ class PracticeRule:
 
 def regional_practice(record_max_rail_C: float | None, record_min_rail_C: float | None,
                       design_max_C: float, design_min_C: float, tunnel: bool = False) -> list[PracticeRule]:
-    """Regional rules for the neutral temperature (DOMAIN.md 7), evaluated where their inputs exist.
+    """Regional rules for the neutral temperature (docs/methods/neutral-target.md), evaluated where their inputs exist.
 
     * UK: stress-free temperature 27 degC (Network Rail track standards).
     * Australia: open track stressed to 38 degC, tunnels to 23 degC (an Australian code of practice).

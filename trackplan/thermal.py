@@ -1,6 +1,6 @@
 """Thermal force in restrained rail and the physics of string ends.
 
-Pure functions over SI floats or numpy arrays. Sign convention (CONVENTIONS.md):
+Pure functions over SI floats or numpy arrays. Sign convention (docs/glossary.md):
 compression positive, tension negative; a *rise* is rail temperature minus
 neutral temperature [K].
 

@@ -391,9 +391,9 @@ def sample_records() -> dict[str, Path]:
         arid, daily max/min) -> path of the ``.csv.gz`` file, readable with
         :func:`read_record`.
     """
-    from importlib.resources import files
+    from trackplan.samples import folder
 
-    base = files("trackplan") / "data" / "climate"
+    base = folder("climate_samples")
     return {k: Path(str(base / name)) for k, name in SAMPLE_FILES.items()}
 
 

@@ -2,20 +2,15 @@
 
 from __future__ import annotations
 
-from importlib import resources
 from pathlib import Path
 
 import typer
 
 from trackplan import CAUTION
 from trackplan.cli.common import UNITS_OPTION, UnitSystem, command, console, print_caution
+from trackplan.samples import example_network
 
 DEFAULT_OUT = "trackplan-demo"
-
-
-def example_network() -> Path:
-    """Path of the bundled example network (package data, works after a plain install)."""
-    return Path(str(resources.files("trackplan").joinpath("data/examples/network.toml")))
 
 
 @command("demo")
@@ -40,7 +35,7 @@ def demo_cmd(
     from trackplan import reports
 
     reports.prepare_out_dir(out)  # a bad --out is said before the work, not after
-    net = example_network()
+    net = example_network()  # examples/network.toml, see trackplan.samples
     console.print(f"[bold]trackplan demo[/]: the example network of a fictional railway ({net.name}), "
                   "synthetic climates of three invented stations.", highlight=False)
     results, problems, _ = load_and_assess(net, True, None, "gumbel")
