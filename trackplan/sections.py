@@ -174,6 +174,7 @@ class Section:
     rail_temperature_method: str
     stability_overrides: tuple = ()  # tuple of (name, SI value) pairs: hashable
     events: tuple = ()  # tuple of Event, sorted by date
+    neutral_entry_id: int | None = None  # the register entry of the latest neutral (None: from the section file)
 
     @property
     def current_neutral_temperature_C(self) -> float:
