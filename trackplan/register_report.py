@@ -11,7 +11,7 @@ import csv
 import datetime as dt
 import io
 
-from trackplan import units
+from trackplan import CAUTION, units
 
 #: Marker and colour per entry kind in the history plot.
 _KIND_STYLE = {
@@ -31,7 +31,8 @@ def history_rows(history, system: str = "si") -> list[dict]:
             f"corrects {e.corrects}" if e.corrects is not None else "")
         rows.append({"id": str(e.id), "date": e.date.isoformat() if e.date else "undated", "kind": e.kind,
                      "neutral": t, "uncertainty": u, "basis": e.basis or "", "method": e.method or "",
-                     "by": e.entered_by, "source": e.source, "status": status, "note": e.note or ""})
+                     "by": e.entered_by, "source": e.source, "status": status, "note": e.note or "",
+                     "details": "; ".join(x for x in (e.method, e.source, e.note) if x)})
     return rows
 
 
@@ -93,10 +94,11 @@ def history_figure(history, system: str = "si", today: dt.date | None = None):
     ax.set_title(f"Neutral temperature register: section {history.section_id}")
     ax.xaxis.set_major_formatter(mdates.ConciseDateFormatter(mdates.AutoDateLocator()))
     ax.grid(alpha=0.3)
-    ax.legend(fontsize=8, loc="lower left", ncols=2)
-    ax.text(0.0, -0.13, "Planning aid only: follow your railway's CWR procedures; decisions by qualified track "
-            "engineers. Measure rail temperature on site.", transform=ax.transAxes, fontsize=7, color="#555555")
-    fig.tight_layout()
+    ax.legend(fontsize=8, loc="best", ncols=2)
+    import textwrap
+
+    fig.text(0.01, 0.005, "Caution: " + textwrap.fill(CAUTION, 150), fontsize=6.5, color="#555555", va="bottom")
+    fig.tight_layout(rect=(0, 0.06, 1, 1))
     return fig
 
 

@@ -292,14 +292,14 @@ def history_cmd(
     info = reg.section_info(section)
     table = Table(title=f"Neutral-temperature history: {section} {info['name']}")
     heads = [("id", "right"), ("date", "left"), ("kind", "left"), (units.header("neutral", "temperature", s), "right"),
-             (units.header("±", "temperature_difference", s), "right"), ("basis", "left"), ("method", "left"),
-             ("by", "left"), ("source", "left"), ("status", "left"), ("note", "left")]
+             (units.header("±", "temperature_difference", s), "right"), ("basis", "left"), ("by", "left"),
+             ("status", "left"), ("method; source; note", "left")]
     for name, j in heads:
         table.add_column(name, justify=j, overflow="fold")
     for r in register_report.history_rows(h, s):
         style = "dim" if r["status"].startswith("corrected") else None
-        table.add_row(*(escape(r[k]) for k in ("id", "date", "kind", "neutral", "uncertainty", "basis", "method", "by",
-                                                "source", "status", "note")), style=style)
+        table.add_row(*(escape(r[k]) for k in ("id", "date", "kind", "neutral", "uncertainty", "basis", "by", "status",
+                                                "details")), style=style)
     console.print(table)
     if latest is not None:
         u = f" ± {units.fmt(latest.uncertainty_K, 'temperature_difference', s)}" if latest.uncertainty_K else ""
