@@ -20,12 +20,24 @@ EXAMPLE = ROOT / "examples" / "network.toml"
 DAILY = ROOT / "climate_samples" / "quennick_sands_daily.csv.gz"
 
 
-@pytest.fixture
-def db(run_cli, tmp_path):
-    path = tmp_path / "net.sqlite"
-    res = run_cli("register", "import", EXAMPLE, "--by", "J. Okafor", "--db", path)
+@pytest.fixture(scope="module")
+def imported(tmp_path_factory):
+    from typer.testing import CliRunner
+
+    from trackplan.cli import app
+
+    path = tmp_path_factory.mktemp("reg") / "net.sqlite"
+    res = CliRunner().invoke(app, ["register", "import", str(EXAMPLE), "--by", "J. Okafor", "--db", str(path)])
     assert res.exit_code == 0, res.output
     return path
+
+
+@pytest.fixture
+def db(imported, tmp_path):
+    """A fresh copy of the imported example network's register (closed: WAL checkpointed)."""
+    import shutil
+
+    return Path(shutil.copy(imported, tmp_path / "net.sqlite"))
 
 
 def _count(path) -> int:
@@ -151,6 +163,19 @@ def test_due_export_verify_and_env(run_cli, db, tmp_path, monkeypatch):
     monkeypatch.setenv("TRACKPLAN_DB", str(db))
     res, v = run_cli("register", "verify", "--json", json_out=True)
     assert res.exit_code == 0 and v["ok"] and v["entries"] == len(rows)
+
+
+def test_import_refuses_a_file_with_a_bad_section_and_verify_finds_problems(run_cli, db, tmp_path):
+    bad = tmp_path / "bad.toml"
+    bad.write_text(EXAMPLE.read_text().replace('neutral_temperature = "35 degC"', 'neutral_temperature = "95 degC"')
+                   .replace("../climate_samples/", f"{ROOT}/climate_samples/"))
+    res = run_cli("register", "import", bad, "--by", "J. Okafor", "--db", tmp_path / "new.sqlite")
+    assert res.exit_code == 2 and "nothing imported" in res.output and "-10..60" in res.output
+    assert not (tmp_path / "new.sqlite").exists()
+    with sqlite3.connect(db) as c:
+        c.execute("DROP TRIGGER entries_no_delete")
+    res = run_cli("register", "verify", "--db", db)
+    assert res.exit_code == 1 and "entries_no_delete is missing" in res.output
 
 
 def _one_section(tmp_path, neutral="22 degC") -> Path:

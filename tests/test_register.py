@@ -23,13 +23,22 @@ EXAMPLE = ROOT / "examples" / "network.toml"
 D = dt.date
 
 
-@pytest.fixture
-def reg(tmp_path):
+@pytest.fixture(scope="module")
+def imported(tmp_path_factory):
     from trackplan.sections import load_sections
 
-    r = R.open_register(tmp_path / "reg.sqlite", create=True)
+    r = R.open_register(tmp_path_factory.mktemp("reg") / "reg.sqlite", create=True)
     r.import_sections(load_sections(EXAMPLE).sections, "J. Okafor", "network.toml")
-    return r
+    r.engine.dispose()
+    return r.path
+
+
+@pytest.fixture
+def reg(imported, tmp_path):
+    """A fresh copy of the imported example network's register."""
+    import shutil
+
+    return R.open_register(shutil.copy(imported, tmp_path / "reg.sqlite"))
 
 
 def _count(path) -> int:

@@ -238,6 +238,10 @@ def read_readings(data: dict, path, today: dt.date | None = None) -> dict:
 
     u_b = qty("rail_temp_uncertainty", "temperature_difference", BASE_UNCERTAINTY_K)
     u_r = qty("reading_uncertainty", "short_length", READING_UNCERTAINTY_M)
+    if not 0 < u_b <= 10:
+        raise InputError(f"{u_b:g} K is outside (0, 10] K: no thermometer reading is exact", f"{where} rail_temp_uncertainty")
+    if not 0 <= u_r <= 0.02:
+        raise InputError(f"{u_r * 1e3:g} mm is outside 0..20 mm", f"{where} reading_uncertainty")
     marks = t.get("marks", [])
     if not isinstance(marks, list):
         raise InputError("expected [[readings.marks]] tables with at and movement", f"{where} marks")

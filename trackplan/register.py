@@ -325,8 +325,8 @@ def resolve_path(db: str | Path | None) -> Path:
 
 
 def _engine(path: Path):
-    engine = sa.create_engine(f"sqlite:///{path}", connect_args={"timeout": BUSY_TIMEOUT_S},
-                              poolclass=sa.pool.NullPool)
+    engine = sa.create_engine(sa.engine.URL.create("sqlite", database=str(path)),
+                              connect_args={"timeout": BUSY_TIMEOUT_S}, poolclass=sa.pool.NullPool)
 
     @sa.event.listens_for(engine, "connect")
     def _on_connect(dbapi_conn, _record):

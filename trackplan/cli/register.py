@@ -117,9 +117,9 @@ def log_cmd(
     date, [[readings.marks]] at/movement); the neutral temperature achieved,
     computed back from the observed movements, goes in with its uncertainty.
 
-    Examples:
-      trackplan register log KP-101 --kind measured --date 2026-05-20 --neutral "31 degC" --uncertainty "2 K" --method "rail uplift" --by "A. Byrne"
-      trackplan register log --job pull-kp101.toml --by "A. Byrne"
+    Example: trackplan register log KP-101 --kind measured --date 2026-05-20 --neutral "31 degC" --uncertainty "2 K" --method "rail uplift" --by "A. Byrne"
+
+    Example: trackplan register log --job examples/pull-kp101.toml --by "A. Byrne"
     """
     from trackplan import register
 
@@ -251,7 +251,7 @@ def job_entry(path: Path, by: str, note: str | None):
     entry = register.NewEntry(
         section_id=rd["section"], kind=MODE_KIND[plan.mode], date=rd["date"], entered_by=by,
         source=f"job file {Path(path).name}", neutral_temperature_C=round(ach.neutral_temperature_C, 3),
-        uncertainty_K=round(max(ach.uncertainty_K, 0.05), 3),
+        uncertainty_K=round(ach.uncertainty_K, 3),
         method=f"mark movements ({len(readings)} marks), {plan.mode} {plan.pull}",
         note=text + (f"; {note}" if note else ""))
     return entry, ach, plan
