@@ -334,10 +334,10 @@ def _engine(path: Path):
         # emits BEGIN IMMEDIATE, so a writer holds the write lock from its first statement.
         dbapi_conn.isolation_level = None
         cur = dbapi_conn.cursor()
+        cur.execute(f"PRAGMA busy_timeout={int(BUSY_TIMEOUT_S * 1000)}")
         cur.execute("PRAGMA journal_mode=WAL")
         cur.execute("PRAGMA synchronous=FULL")
         cur.execute("PRAGMA foreign_keys=ON")
-        cur.execute(f"PRAGMA busy_timeout={int(BUSY_TIMEOUT_S * 1000)}")
         cur.close()
 
     @sa.event.listens_for(engine, "begin")

@@ -134,6 +134,9 @@ def check_cmd(
                    "files": [str(p) for p in written], "caution": CAUTION})
     else:
         print_checks(results, system.value)
+        if register is not None:
+            console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
+                          highlight=False)
         if written:
             console.print(f"Wrote {len(written)} files to {written[0].parent}/ (summary: check_summary.html)",
                           highlight=False)

@@ -317,6 +317,9 @@ def screen_cmd(
     else:
         if result.sections:
             print_summary(result, system.value)
+        if register is not None:
+            console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
+                          highlight=False)
         if written:
             console.print(f"Wrote {len(written)} files to {written[0].parent}/ (flagged_days.csv, annual_counts.csv, "
                           "plots)", highlight=False)

@@ -113,6 +113,9 @@ def target_cmd(
                    "caution": CAUTION})
     else:
         print_targets(results, system.value)
+        if register is not None:
+            console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
+                          highlight=False)
         print_caution()
     report_problems(problems, len(results))
     if problems:
