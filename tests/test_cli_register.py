@@ -148,6 +148,28 @@ def test_log_job_inverse_matches_the_destress_forward_calculation(run_cli, db, t
     assert res.exit_code == 2 and "cannot be given with --job" in res.output
 
 
+@pytest.mark.parametrize("old, new, words", [
+    ('movement = "46.000000 mm"', "movement = 46", "has no unit"),
+    ('[[readings.marks]]\nat = "400 m"', '[[readings.marks]]\nhalf = "B"\nat = "400 m"', "central cut"),
+    ('[[readings.marks]]\nat = "400 m"', '[[readings.marks]]\nhalf = "C"\nat = "400 m"', "A or B"),
+    ("date = 2024-06-02", 'date = "2024-02-30"', "existing date"),
+    ('section = "KP-102"', 'section = "ZZ-1"', "unknown section"),
+    ('at = "400 m"', 'at = "500 m"', "beyond the pulled length"),
+    ('rail_temp_uncertainty = "1 K"', 'rail_temp_uncertainty = "0 K"', "no thermometer reading is exact"),
+])
+def test_log_job_bad_input_exit_2_nothing_written(run_cli, db, tmp_path, old, new, words):
+    xs = [100.0, 200.0, 300.0, 400.0]
+    marks = "\n".join(f'[[readings.marks]]\nat = "{x:g} m"\nmovement = "{x * 0.115:.6f} mm"' for x in xs)
+    text = JOB.format(marks=marks)
+    assert old in text
+    job = tmp_path / "job.toml"
+    job.write_text(text.replace(old, new))
+    n = _count(db)
+    res = run_cli("register", "log", "--job", job, "--by", "A. Byrne", "--db", db)
+    assert res.exit_code == 2 and words in res.output and "Traceback" not in res.output, res.output
+    assert _count(db) == n
+
+
 def test_due_export_verify_and_env(run_cli, db, tmp_path, monkeypatch):
     res, d = run_cli("register", "due", "--older-than", "5y", "--db", db, "--json", json_out=True)
     ids = {r["id"]: r for r in d["sections"]}

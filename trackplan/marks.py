@@ -197,6 +197,9 @@ def achieved_from_readings(readings, base_temperature_C: float, alpha_per_K: flo
     )
 
 
+#: Examples of each kind of quantity in the [readings] table, for messages.
+_EXAMPLE = {"length": "200 m", "short_length": "27 mm", "temperature_difference": "1 K"}
+
 #: Fields of the job file's [readings] table.
 READING_FIELDS = ("section", "date", "rail_temp_uncertainty", "reading_uncertainty", "marks")
 
@@ -233,7 +236,7 @@ def read_readings(data: dict, path, today: dt.date | None = None) -> dict:
             return default
         v = t[key]
         if not isinstance(v, str):
-            raise InputError(f"{v!r} has no unit; write e.g. \"{units._example(kind)}\"", f"{where} {key}")
+            raise InputError(f"{v!r} has no unit; write e.g. \"{_EXAMPLE[kind]}\"", f"{where} {key}")
         return units.parse(v, kind, f"{where} {key}")
 
     u_b = qty("rail_temp_uncertainty", "temperature_difference", BASE_UNCERTAINTY_K)
@@ -257,7 +260,7 @@ def read_readings(data: dict, path, today: dt.date | None = None) -> dict:
         vals = []
         for key, kind in (("at", "length"), ("movement", "short_length")):
             if not isinstance(m[key], str):
-                raise InputError(f"{m[key]!r} has no unit; write e.g. \"{units._example(kind)}\"", f"{w} {key}")
+                raise InputError(f"{m[key]!r} has no unit; write e.g. \"{_EXAMPLE[kind]}\"", f"{w} {key}")
             vals.append(units.parse(m[key], kind, f"{w} {key}"))
         half = str(m.get("half", "A")).strip().upper()
         if half not in ("A", "B"):
