@@ -220,9 +220,11 @@ def test_writer_killed_mid_transaction_leaves_the_register_as_before(reg):
     a, b = ctx.Pipe()
     p = ctx.Process(target=_killed_writer, args=(reg.path, b))
     p.start()
-    assert a.poll(30) and a.recv() == "inside"
-    os.kill(p.pid, signal.SIGKILL)
-    p.join(10)
+    try:
+        assert a.poll(30) and a.recv() == "inside"
+    finally:
+        os.kill(p.pid, signal.SIGKILL)
+        p.join(10)
     assert p.exitcode == -signal.SIGKILL
     r = R.open_register(reg.path)
     assert _count(r.path) == n0 and r.verify() == []

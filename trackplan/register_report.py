@@ -70,8 +70,9 @@ def history_figure(history, system: str = "si", today: dt.date | None = None):
     seen = set()
     for e in neutrals:
         marker, colour = _KIND_STYLE.get(e.kind, ("o", "#34495e"))
-        ax.plot([e.date], [T(e.neutral_temperature_C)], marker=marker, color=colour, ms=7, ls="none", zorder=4,
-                label=e.kind if e.kind not in seen else None)
+        ax.errorbar([e.date], [T(e.neutral_temperature_C)],
+                    yerr=None if e.uncertainty_K is None else [dK(e.uncertainty_K)], marker=marker, color=colour,
+                    ms=7, ls="none", capsize=4, zorder=4, label=e.kind if e.kind not in seen else None)
         seen.add(e.kind)
         ax.annotate(f"#{e.id}", (e.date, T(e.neutral_temperature_C)), textcoords="offset points", xytext=(4, 6),
                     fontsize=7, color="#555555")
