@@ -152,7 +152,8 @@ def log_cmd(
         raise InputError(exc.bare_message, _option_of(exc.where)) from None
     s = system.value
     if as_json:
-        out = {"id": new_id, "section": entry.section_id, "entry": reg.history(entry.section_id).entries[-1].as_json()}
+        written = next(e for e in reg.history(entry.section_id).entries if e.id == new_id)
+        out = {"id": new_id, "section": entry.section_id, "entry": written.as_json()}
         if achieved is not None:
             out["achieved"] = {
                 "neutral_temperature_C": achieved.neutral_temperature_C, "uncertainty_K": achieved.uncertainty_K,
