@@ -84,7 +84,7 @@ def test_console_entry_loads_only_the_command_it_runs():
             "from trackplan.cli import main\n"
             "try:\n    main()\nexcept SystemExit:\n    pass\n"
             "print(json.dumps([sorted(m for m in sys.modules if m.startswith('trackplan.cli.')), "
-            "sorted(m for m in ('matplotlib', 'pvlib', 'scipy', 'pandas', 'pint') if m in sys.modules)]), "
+            "sorted(m for m in ('matplotlib', 'pvlib', 'scipy', 'pandas', 'pint', 'sqlalchemy') if m in sys.modules)]), "
             "file=sys.stderr)")
     res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
     assert json.loads(res.stdout)["results"][0]["rise_K"] == pytest.approx(33.0)

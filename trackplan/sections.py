@@ -176,6 +176,7 @@ class Section:
     stability_overrides: tuple = ()  # tuple of (name, SI value) pairs: hashable
     loading: str = "freight-22.5t"  # train preset of the stability analysis, or "none"
     events: tuple = ()  # tuple of Event, sorted by date
+    neutral_entry_id: int | None = None  # the register entry of the latest neutral (None: from the section file)
 
     @property
     def current_neutral_temperature_C(self) -> float:

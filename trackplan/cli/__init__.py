@@ -23,6 +23,7 @@ COMMAND_MODULES = [
     "target",
     "check",
     "screen",
+    "register",
     "demo",
 ]
 

@@ -12,8 +12,8 @@ from rich.table import Table
 
 from trackplan import CAUTION, units
 from trackplan.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, print_caution
-from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, RETURN_PERIOD_OPTION, SECTIONS_ARG, STRICT_OPTION,
-                                   load_and_assess, report_problems)
+from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
+                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, report_problems)
 
 _STYLE = {"act": "bold red", "watch": "yellow", "ok": "green"}
 
@@ -27,6 +27,7 @@ def check_json(a) -> dict:
         "reasons": c.reasons,
         "current_neutral_temperature_C": c.current_neutral_temperature_C,
         "recorded_neutral_temperature_C": c.cold_neutral_temperature_C,
+        "neutral_entry_id": a.section.neutral_entry_id,
         "design_max_rail_temperature_C": c.design_max_rail_temperature_C,
         "design_min_rail_temperature_C": c.design_min_rail_temperature_C,
         "max_compression_force_per_rail_kN": c.max_compression_force_per_rail_N / 1e3,
@@ -107,6 +108,7 @@ def check_cmd(
     distribution: str = DISTRIBUTION_OPTION,
     priority: str = PRIORITY_OPTION,
     strict: bool = STRICT_OPTION,
+    register: Optional[Path] = REGISTER_OPTION,
     system: UnitSystem = UNITS_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
@@ -125,7 +127,8 @@ def check_cmd(
     """
     from trackplan.check import rank_key
 
-    results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution, priority)
+    results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution, register,
+                                           priority)
     results = sorted(results, key=lambda a: rank_key(a.check))
     written = write_check_outputs(out, results, sections_file, system.value) if out is not None else []
     if as_json:
@@ -133,6 +136,9 @@ def check_cmd(
                    "files": [str(p) for p in written], "caution": CAUTION})
     else:
         print_checks(results, system.value)
+        if register is not None:
+            console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
+                          highlight=False)
         if written:
             console.print(f"Wrote {len(written)} files to {written[0].parent}/ (summary: check_summary.html)",
                           highlight=False)

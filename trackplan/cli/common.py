@@ -74,8 +74,8 @@ def fail(exc: InputError) -> None:
     raise typer.Exit(2)
 
 
-def command(name: str | None = None, **kwargs):
-    """Register a subcommand on :data:`app` with input-error handling."""
+def command(name: str | None = None, on: typer.Typer | None = None, **kwargs):
+    """Register a subcommand on :data:`app` (or on the command group ``on``) with input-error handling."""
 
     def deco(fn):
         @functools.wraps(fn)
@@ -88,7 +88,7 @@ def command(name: str | None = None, **kwargs):
                 # a file the user named could not be read or written: a usage problem, not a crash
                 fail(InputError(f"cannot use the file ({exc})"))
 
-        app.command(name, **kwargs)(wrapper)
+        (on or app).command(name, **kwargs)(wrapper)
         return fn
 
     return deco

@@ -15,16 +15,36 @@ STRICT_OPTION = typer.Option(False, "--strict", help="Refuse the whole file if a
 PRIORITY_OPTION = typer.Option("heat", "--priority", help="When a section's neutral window is empty: heat (default: never below the heat floor, cold-side risk stated) or cold.")
 RETURN_PERIOD_OPTION = typer.Option(None, "--return-period", help="Return period of the design temperatures in years (default: each section's, 50).")
 DISTRIBUTION_OPTION = typer.Option("gumbel", "--distribution", help="Extreme-value distribution for the design temperatures: gumbel or gev.")
+REGISTER_OPTION = typer.Option(None, "--register", help="Neutral-temperature register (SQLite file of `trackplan register`): each section's neutral history and events come from it; the section file keeps the track description.")
+
+
+def read_sections(path: Path, strict: bool, register: Path | None = None):
+    """Read the section file; with ``register``, take each section's neutral history and
+    events from the register (a section it does not hold is a problem, never silently
+    assessed from the file). Returns the SectionFile."""
+    from trackplan.sections import load_sections
+
+    sf = load_sections(path, strict=strict)
+    if register is not None:
+        from trackplan.register import apply_register
+
+        try:
+            sf.sections, more = apply_register(sf.sections, register)
+        except InputError as exc:
+            raise InputError(exc.bare_message, f"--register {exc.where}") from None
+        sf.problems = sf.problems + more
+        if strict and sf.problems:
+            raise sf.problems[0]
+    return sf
 
 
 def load_and_assess(path: Path, strict: bool, return_period: float | None, distribution: str,
-                    priority: str = "heat"):
-    """Read the section file and assess its sections.
+                    register: Path | None = None, priority: str = "heat"):
+    """Read the section file (and the register, if given) and assess its sections.
 
     Returns ``(assessments, problems)``; with ``strict`` the first problem is raised.
     """
     from trackplan.assess import Assessor
-    from trackplan.sections import load_sections
 
     if return_period is not None and not 2 <= return_period <= 1000:
         raise InputError(f"{return_period:g} years is outside 2..1000", "--return-period")
@@ -32,7 +52,7 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
         raise InputError(f"unknown distribution {distribution!r}; accepted: gumbel, gev", "--distribution")
     if priority not in ("heat", "cold"):
         raise InputError(f"unknown priority {priority!r}; accepted: heat, cold", "--priority")
-    sf = load_sections(path, strict=strict)
+    sf = read_sections(path, strict, register)
     assessor = Assessor(return_period, distribution, priority)
     if progress_enabled() and len(sf.sections) > 3:
         from rich.progress import Progress

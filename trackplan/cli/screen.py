@@ -12,7 +12,7 @@ from rich.table import Table
 from trackplan import CAUTION, units
 from trackplan.cli.common import (JSON_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, err_console,
                                   parse_option, print_caution, progress_enabled)
-from trackplan.cli.network import SECTIONS_ARG, STRICT_OPTION, report_problems
+from trackplan.cli.network import REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, read_sections, report_problems
 from trackplan.errors import InputError
 
 _LEVEL_STYLE = {"watch": "yellow", "restrict": "bold red", "critical": "bold magenta", "cold": "bold blue"}
@@ -35,13 +35,13 @@ def build_options(date_from, date_to, months, warming, neutral_override, watch_f
                                    neutral_override_C=tn, watch_fraction=watch_fraction).validate()
 
 
-def run_screen(sections_file: Path, options, strict: bool):
-    """Read the section file and screen its sections; returns the ScreenResult."""
+def run_screen(sections_file: Path, options, strict: bool, register: Path | None = None):
+    """Read the section file (and the register, if given) and screen its sections; returns the ScreenResult
+    (its ``neutral_entries``: section id -> register entry id of the latest neutral, or None)."""
     from trackplan.assess import Assessor
     from trackplan.screening import Screener
-    from trackplan.sections import load_sections
 
-    sf = load_sections(sections_file, strict=strict)
+    sf = read_sections(sections_file, strict, register)
     screener = Screener(Assessor(), options)
     if progress_enabled() and len(sf.sections) > 3:
         from rich.progress import Progress
@@ -53,6 +53,7 @@ def run_screen(sections_file: Path, options, strict: bool):
     else:
         result = screener.screen_all(sf.sections)
     result.problems = sf.problems + result.problems
+    result.neutral_entries = {s.id: s.neutral_entry_id for s in sf.sections}
     if strict and result.problems:
         raise result.problems[0]
     return result
@@ -276,6 +277,7 @@ def screen_cmd(
     watch_fraction: float = typer.Option(0.8, "--watch-fraction", help="'watch' from this fraction of the allowable rise (default 0.8, as in check)."),
     out: Optional[Path] = typer.Option(None, "--out", help="Folder for flagged_days.csv, annual_counts.csv, screen_summary.csv, flagged_timeline.png and annual_counts.png."),
     strict: bool = STRICT_OPTION,
+    register: Optional[Path] = REGISTER_OPTION,
     system: UnitSystem = UNITS_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
@@ -300,11 +302,12 @@ def screen_cmd(
     from trackplan import screening
 
     options = build_options(date_from, date_to, months, warming, neutral_override, watch_fraction, system.value)
-    result = run_screen(sections_file, options, strict)
+    result = run_screen(sections_file, options, strict, register)
     written = write_outputs(out, result, sections_file, system.value) if out is not None else []
     if as_json:
         emit_json({
-            "sections": [screening.section_json(r) for r in result.sections],
+            "sections": [{**screening.section_json(r), "neutral_entry_id": result.neutral_entries.get(r.id)}
+                         for r in result.sections],
             "settings": screening.options_json(options),
             "levels": list(screening.LEVELS) + [screening.COLD_LEVEL],
             "problems": [str(p) for p in result.problems],
@@ -314,6 +317,9 @@ def screen_cmd(
     else:
         if result.sections:
             print_summary(result, system.value)
+        if register is not None:
+            console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
+                          highlight=False)
         if written:
             console.print(f"Wrote {len(written)} files to {written[0].parent}/ (flagged_days.csv, annual_counts.csv, "
                           "plots)", highlight=False)

@@ -10,8 +10,8 @@ from rich.table import Table
 
 from trackplan import CAUTION, units
 from trackplan.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, print_caution
-from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, RETURN_PERIOD_OPTION, SECTIONS_ARG, STRICT_OPTION,
-                                   load_and_assess, report_problems)
+from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
+                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, report_problems)
 
 
 def target_json(a) -> dict:
@@ -37,6 +37,8 @@ def target_json(a) -> dict:
         "return_period_years": a.climate.design.return_period_years,
         "allowable_rise_K": a.allowable_rise_K,
         "drift_allowance_K": a.section.drift_allowance_K,
+        "recorded_neutral_temperature_C": a.section.latest_neutral_temperature_C,
+        "neutral_entry_id": a.section.neutral_entry_id,
         "explanation": [str(x) for x in t.explanation],
         "would_open_window": [str(x) for x in t.openers],
         "regional_practice": [
@@ -96,6 +98,7 @@ def target_cmd(
     distribution: str = DISTRIBUTION_OPTION,
     priority: str = PRIORITY_OPTION,
     strict: bool = STRICT_OPTION,
+    register: Optional[Path] = REGISTER_OPTION,
     system: UnitSystem = UNITS_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
@@ -110,12 +113,16 @@ def target_cmd(
 
     Example: trackplan target examples/network.toml --units us
     """
-    results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution, priority)
+    results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution, register,
+                                           priority)
     if as_json:
         emit_json({"sections": [target_json(a) for a in results], "problems": [str(p) for p in problems],
                    "caution": CAUTION})
     else:
         print_targets(results, system.value)
+        if register is not None:
+            console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
+                          highlight=False)
         print_caution()
     report_problems(problems, len(results))
     if problems:
