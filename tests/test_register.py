@@ -73,7 +73,7 @@ def test_log_correction_and_latest_neutral(reg):
     assert [e.id for e in h.entries if e.corrected_by == c] == [m]
     # a note without a neutral withdraws it: the earlier neutral is the latest again
     reg.log(R.NewEntry("KP-101", "note", D(2024, 5, 2), "B. Crew", corrects=c, note="wrong section"))
-    assert reg.history("KP-101").latest_neutral.neutral_temperature_C == 35.0
+    assert reg.history("KP-101").latest_neutral.neutral_temperature_C == 44.0
     assert reg.verify() == []
 
 
@@ -257,7 +257,7 @@ def test_apply_to_section_follows_the_latest_entry(reg):
     last = reg.log(R.NewEntry("KP-101", "measured", D(2024, 3, 1), "C", neutral_temperature_C=29.5, uncertainty_K=2,
                               method="rail uplift"))
     a = R.apply_to_section(s, reg.history("KP-101"))
-    assert a.neutral_temperature_C == 35.0 and a.neutral_date == D(2021, 5, 18)
+    assert a.neutral_temperature_C == 44.0 and a.neutral_date == D(2021, 5, 18)
     assert a.latest_neutral_temperature_C == 29.5 and a.neutral_entry_id == last and a.neutral_basis == "measured"
     assert [(e.kind, e.date) for e in a.events] == [("tamping", D(2023, 6, 12)), ("destress", D(2023, 9, 1)),
                                                     ("destress", D(2024, 3, 1))]
