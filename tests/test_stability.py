@@ -369,3 +369,17 @@ def test_small_misalignment_on_strong_track_uses_the_buckled_branch():
     assert r10.allowable_rise_K <= r10.lower_critical_rise_K < st.MAX_RISE_K / 2
     r0 = st.solve_equilibrium_curve(st.track_parameters(p, steel, "concrete", "consolidated", misalignment_m=0.0))
     assert r0.allowable_rise_K == pytest.approx(r10.allowable_rise_K, rel=1e-6)
+
+
+def test_path_that_cannot_be_followed_falls_back_to_the_wider_misalignment():
+    # 54E1 on strong concrete track in a 300 m curve with a 10 mm misalignment: its own path cannot
+    # be followed past the peak; the 50 mm misalignment's result (lower criticals) is returned, said
+    from trackplan.track import build_track
+
+    p = rails.get_profile("54E1")
+    inp = build_track(p, thermal.default_steel(False), sleeper="concrete", ballast="consolidated",
+                      misalignment_m=0.01, radius_m=300.0)
+    res = st.solve_equilibrium_curve(inp)
+    assert res.inputs.misalignment_m == st.RETRACE_MISALIGNMENT_M
+    assert any("could not be followed" in n for n in res.notes)
+    assert res.allowable_rise_K <= res.lower_critical_rise_K
