@@ -39,11 +39,14 @@ def read_sections(path: Path, strict: bool, register: Path | None = None):
 
 
 def load_and_assess(path: Path, strict: bool, return_period: float | None, distribution: str,
-                    register: Path | None = None, priority: str = "heat"):
+                    register: Path | None = None, priority: str = "heat", column: list[str] | None = None,
+                    tz: str | None = None, allow_short: bool = False):
     """Read the section file (and the register, if given) and assess its sections.
 
+    ``column`` (``--column`` texts), ``tz`` and ``allow_short`` override every section's.
     Returns ``(assessments, problems)``; with ``strict`` the first problem is raised.
     """
+    from trackplan import columns
     from trackplan.assess import Assessor
 
     if return_period is not None and not 2 <= return_period <= 1000:
@@ -53,7 +56,7 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
     if priority not in ("heat", "cold"):
         raise InputError(f"unknown priority {priority!r}; accepted: heat, cold", "--priority")
     sf = read_sections(path, strict, register)
-    assessor = Assessor(return_period, distribution, priority)
+    assessor = Assessor(return_period, distribution, priority, columns.parse_options(column), tz, allow_short)
     if progress_enabled() and len(sf.sections) > 3:
         from rich.progress import Progress
 

@@ -12,7 +12,10 @@ from rich.table import Table
 
 from trackplan import CAUTION, rails, units
 from trackplan.cli.common import (
+    ALLOW_SHORT_OPTION,
+    COLUMN_OPTION,
     JSON_OPTION,
+    TZ_OPTION,
     UNITS_OPTION,
     UnitSystem,
     command,
@@ -62,6 +65,9 @@ def railtemp_cmd(
     return_period: float = typer.Option(50.0, "--return-period", help="Return period of the design values [years], > 1."),
     distribution: str = typer.Option("gumbel", "--distribution", help="Extreme-value distribution: gumbel or gev."),
     out: Optional[Path] = typer.Option(None, "--out", help="Folder for a CSV of rail temperatures and PNG plots."),
+    column: Optional[list[str]] = COLUMN_OPTION,
+    tz: Optional[str] = TZ_OPTION,
+    allow_short: bool = ALLOW_SHORT_OPTION,
     system: UnitSystem = UNITS_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
@@ -97,7 +103,9 @@ def railtemp_cmd(
             "rail_temperature_hourly.csv", "rail_temperature_daily.csv", "annual_extremes.csv",
             "annual_extremes.png", "return_levels.png", "hottest_week.png"])
 
-    df, meta = weather.read_record(file)
+    from trackplan import columns, notices
+
+    df, meta = weather.read_record(file, columns=columns.parse_options(column), tz=tz, site=(lat_v, lon_v))
     lat_v = lat_v if lat_v is not None else meta.get("latitude_deg")
     lon_v = lon_v if lon_v is not None else meta.get("longitude_deg")
     if lat_v is None or lon_v is None:
@@ -114,7 +122,7 @@ def railtemp_cmd(
         daily = railtemp.daily_rail_extremes(df, meta, profile, site, method=name)
     typical = bool(meta.get("typical_year"))
     design = extremes.design_extremes(daily, return_period, distribution, typical_year=typical,
-                                      years=None if typical else meta.get("years"))
+                                      years=None if typical else meta.get("years"), allow_short=allow_short)
     warnings = list(meta.get("warnings") or []) + design.warnings
     station = meta.get("station") or Path(file).name
 
@@ -128,8 +136,10 @@ def railtemp_cmd(
         obj["ci_level"] = design.ci_level
         obj["inputs"] = {"rail": profile.name, "method": name, "latitude_deg": site.latitude_deg,
                          "longitude_deg": site.longitude_deg, "track_azimuth_deg": site.track_azimuth_deg,
-                         "shade_factor": site.shade_factor, "distribution": distribution}
-        obj["warnings"] = list(dict.fromkeys(warnings))
+                         "shade_factor": site.shade_factor, "distribution": distribution,
+                         "tz": meta.get("tz"), "time_step": meta.get("time_step"),
+                         "time_step_s": meta.get("time_step_s"), "allow_short": allow_short}
+        obj["warnings"] = notices.to_json(warnings)
         obj["caution"] = CAUTION
         emit_json(obj)
         return
@@ -139,7 +149,7 @@ def railtemp_cmd(
 def _print(design, station, meta, site, profile, method, warnings, s, out) -> None:
     info = (
         f"[bold]{station}[/]  {site.latitude_deg:.3f}°, {site.longitude_deg:.3f}°  "
-        f"({meta.get('source_format')}, {meta.get('time_step')})\n"
+        f"({meta.get('source_format')}, {meta.get('time_step')}, zone {meta.get('tz') or 'not stated'})\n"
         f"rail {profile.name}, track azimuth {site.track_azimuth_deg:g}°, shade {site.shade_factor:g}, "
         f"method {method}"
     )
