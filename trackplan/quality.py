@@ -12,14 +12,17 @@ warning with a stable code (:mod:`trackplan.notices`):
   :data:`SMOOTH_STD_K` the series is taken as smoothed. Measured on real
   records shipped by registry packages (``tests/test_quality.py``): Seattle
   daily station record 2012-2015 (vega_datasets ``seattle-weather.csv``)
-  2.9 K; TMY3 Sand Point, AK and Greensboro, NC (pvlib data) 1.9 K and
-  3.3 K; against 0.13 K and 0.09 K for the hourly climatological series of
+  2.9 K; TMY3 Sand Point, AK and Greensboro, NC (pvlib data) 2.3 K and
+  4.2 K; against 0.13 K and 0.09 K for the hourly climatological series of
   Seattle and San Francisco 2010 (vega_datasets ``seattle-temps.csv``,
-  ``sf-temps.csv``). The threshold 0.5 K lies a factor of about 4 below the
-  quietest real record measured and 4 above the smoothed ones (a planning
-  choice);
+  ``sf-temps.csv``). The threshold 0.5 K lies a factor of about 4.5 below
+  the quietest real record measured and about 4 above the smoothed ones (a
+  planning choice; a very quiet tropical maritime station may come nearer
+  to it, so the warning does not refuse the record);
 * ``typical_year``: a typical-year file (TMY3, EPW) is made of months from
   different years: it stands for no year and has no return level;
+* ``short_record``: fewer than :data:`SHORT_YEARS` complete years (the
+  design values say more for the return period asked, :mod:`trackplan.extremes`);
 * ``repeated_years``: two calendar years of the record with the same daily
   maxima (a year copied to fill a gap, or a typical year repeated) on at least
   :data:`REPEAT_SHARE` of their common days.
@@ -46,6 +49,8 @@ from trackplan.notices import Notice
 SMOOTH_STD_K = 0.5
 #: At least this many day-to-day changes are needed for the smoothness statistic.
 SMOOTH_MIN_DAYS = 60
+#: Fewer complete years than this: the ``short_record`` warning (as trackplan.extremes.SHORT_RECORD_YEARS).
+SHORT_YEARS = 10
 #: Two years whose daily maxima agree (within 0.05 K) on this share of common days are repeats.
 REPEAT_SHARE = 0.9
 
@@ -117,6 +122,10 @@ def check_record(data: pd.DataFrame, meta: dict, label: str) -> list[Notice]:
         out.append(Notice(f"{label}: a typical-year file ({meta.get('source_format')}) is made of months from "
                           "different years; it stands for no particular year, so it gives observed extremes, "
                           "not return levels", "typical_year", label))
+    n_years = len(meta.get("years") or [])
+    if not meta.get("typical_year") and n_years < SHORT_YEARS:
+        out.append(Notice(f"{label}: short record: {n_years} complete year(s), fewer than {SHORT_YEARS}; annual "
+                          "extremes, counts and trends rest on few years", "short_record", label))
     if "tmax_C" not in data and "air_temperature_C" not in data:
         return out
     tmax = daily_max_C(data, meta)
@@ -125,7 +134,7 @@ def check_record(data: pd.DataFrame, meta: dict, label: str) -> list[Notice]:
     if n >= SMOOTH_MIN_DAYS and sd < SMOOTH_STD_K:
         out.append(Notice(
             f"{label}: the daily maximum changes from day to day with a standard deviation of {sd:.2f} K, "
-            f"far below any weather station's (threshold {SMOOTH_STD_K:g} K; real records 1.5-5 K): this looks "
+            f"far below any weather station's (threshold {SMOOTH_STD_K:g} K; station records measured 2.3-4.2 K): this looks "
             "like a smoothed or climatological series (normals, a mean year), whose extremes are much milder "
             "than real weather; use a station record", "smoothed_series", label))
     if not meta.get("typical_year"):

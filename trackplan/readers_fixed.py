@@ -65,7 +65,7 @@ import pandas as pd
 from trackplan import weather as W
 from trackplan.errors import InputError
 
-_DLY_RE = re.compile(r"^[A-Z]{2}[A-Z0-9]{9}\d{4}(0[1-9]|1[0-2])[A-Z0-9]{4}[ \-\d]{5}")
+_DLY_RE = re.compile(r"^[A-Z]{2}[A-Z0-9]{9}\d{4}(0[1-9]|1[0-2])[A-Z0-9]{4}.{8}")
 _ISD_RE = re.compile(r"^\d{4} (0[1-9]|1[0-2]) [0-3]\d [0-2]\d[ \-\d]{6}[ \-\d]{6}")
 
 _DLY_ELEMENTS = {"TMAX": ("tmax_C", 0.1), "TMIN": ("tmin_C", 0.1),

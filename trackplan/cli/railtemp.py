@@ -174,8 +174,10 @@ def _print(design, station, meta, site, profile, method, warnings, s, out) -> No
         return f"{units.fmt(c[0], 'temperature', s)} to {units.fmt(c[1], 'temperature', s)}"
 
     basis = design.design_basis
-    label = (f"{design.return_period_years:g}-year return level ({basis})" if basis != "observed"
-             else "observed extreme")
+    label = (f"{design.return_period_years:g}-year return level ({basis})" if basis not in ("observed",
+                                                                                            "observed+allowance")
+             else "observed extreme" if basis == "observed"
+             else f"observed extreme plus allowance for {design.return_period_years:g} years")
     dt = Table(title=f"Design rail temperatures: {label}, {design.years} year(s)")
     dt.add_column("")
     dt.add_column("rail temperature", justify="right")
