@@ -72,6 +72,31 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
     return results, problems, assessor
 
 
+#: Warnings about what a record can support, printed once per record under the tables.
+RECORD_CODES = ("smoothed_series", "typical_year", "repeated_years", "short_record")
+
+
+def print_records(rows) -> None:
+    """How each climate record was read, and what it cannot support: ``rows`` of (file name,
+    time step, zone, warnings); record-quality warnings (:data:`RECORD_CODES`) once per record."""
+    from rich.markup import escape
+
+    from trackplan import notices
+    from trackplan.cli.common import console
+
+    rows = list(rows)
+    seen = list(dict.fromkeys((n, step, tz) for n, step, tz, _ in rows))
+    if seen:
+        console.print("Climate records read: " + "; ".join(f"{n} ({step}, zone {tz or 'not stated'})"
+                                                           for n, step, tz in seen), highlight=False)
+    said = set()
+    for _, _, _, ws in rows:
+        for w in map(notices.as_notice, ws):
+            if w.code in RECORD_CODES and str(w) not in said:
+                said.add(str(w))
+                console.print(f"[yellow]Warning ({w.code}):[/] {escape(str(w))}", highlight=False)
+
+
 def report_problems(problems: list[InputError], n_ok: int | None = None) -> None:
     """Print the bad sections on stderr: identical messages once, with how many sections
     share them (a wrong --from/--to would otherwise repeat for every section).

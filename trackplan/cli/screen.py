@@ -12,7 +12,8 @@ from rich.table import Table
 from trackplan import CAUTION, units
 from trackplan.cli.common import (COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, err_console,
                                   parse_option, print_caution, progress_enabled)
-from trackplan.cli.network import REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, read_sections, report_problems
+from trackplan.cli.network import (REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, print_records, read_sections,
+                                   report_problems)
 from trackplan.errors import InputError
 
 _LEVEL_STYLE = {"watch": "yellow", "restrict": "bold red", "critical": "bold magenta", "cold": "bold blue"}
@@ -320,6 +321,8 @@ def screen_cmd(
     else:
         if result.sections:
             print_summary(result, system.value)
+            print_records([(r.climate_path.name, r.inputs.get('time_step'), r.inputs.get('tz'), r.warnings)
+                           for r in result.sections])
         if register is not None:
             console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
                           highlight=False)

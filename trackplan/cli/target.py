@@ -12,7 +12,8 @@ from trackplan import CAUTION, notices, units
 from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
                                   command, console, emit_json, print_caution)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
-                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, report_problems)
+                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, print_records,
+                                   report_problems)
 
 
 def target_json(a) -> dict:
@@ -125,6 +126,8 @@ def target_cmd(
                    "caution": CAUTION})
     else:
         print_targets(results, system.value)
+        print_records([(a.section.climate_path.name, a.climate.time_step, a.climate.tz, a.climate.warnings)
+                       for a in results])
         if register is not None:
             console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
                           highlight=False)
