@@ -20,6 +20,8 @@ section; every value that is a quantity carries its unit::
     latitude = 47.15                # degrees north (optional: the climate record's)
     longitude = 8.9                 # degrees east
     climate = "climate/ostvale.csv.gz"   # relative to this file
+    # columns = { tmax = "temp_max [degC]", tmin = "temp_min [degC]" }  # CSV as published (trackplan.columns)
+    # tz = "UTC+01:00"              # zone of naive timestamps (default: the file's, else the longitude's)
     radius = "800 m"                # absent for tangent track
     track_azimuth = "35 deg"        # direction of the track axis from north
     misalignment = "20 mm"

@@ -17,7 +17,17 @@ recognised from its first bytes, whatever the file is called):
 ``ghcn-daily-csv``      daily station records in the GHCN-Daily
                         "by_station" CSV layout of the US national climate
                         archive (NOAA NCEI), below
+``ghcn-daily-dly``      GHCN-Daily ``.dly`` fixed width
+                        (:mod:`trackplan.readers_fixed`)
+``isd-lite``            hourly ISD-Lite fixed width (:mod:`trackplan.readers_fixed`)
+``cf-netcdf``           a point series from CF-convention NetCDF
+                        (:mod:`trackplan.readers_cf`)
 ======================  ===================================================
+
+Any CSV as published is read with a column mapping (:mod:`trackplan.columns`):
+which column holds which quantity, in what unit. Every record passes the
+quality checks of :mod:`trackplan.quality`; warnings are
+:class:`trackplan.notices.Notice` objects (text with a stable code).
 
 Canonical columns
 -----------------
@@ -115,8 +125,11 @@ Our own CSV (``trackplan-csv``)
   ``America/Chicago``), ``wind_height`` (with a unit, default 10 m),
   ``irradiance_timing`` (``instant``, ``hour-ending``, ``hour-beginning``).
   Other keys are kept in ``meta["extra"]``.
-* The header: the first column ``time`` (hourly or finer) or ``date``
-  (daily); every quantity column carries its unit in brackets. Quantities
+* The header: a timestamp column (``time``, ``date``, ``datetime``... or
+  mapped); the time step comes from the timestamps (daily when every
+  timestamp is at midnight a day or more apart), never from the column's
+  name. Every quantity column carries its unit in brackets, or a mapping
+  gives it. Quantities
   (aliases in :data:`CSV_QUANTITIES`): ``air_temperature``, ``ghi``, ``dni``,
   ``dhi``, ``wind_speed``, ``relative_humidity``, ``cloud_fraction``;
   daily ``tmax``, ``tmin``, ``sunshine_fraction``, ``cloud_fraction``.
@@ -130,8 +143,10 @@ Our own CSV (``trackplan-csv``)
   daylight saving time is never applied: write offsets with each timestamp,
   ``2020-07-01T14:00-05:00``, if the clock followed it). With offsets they are
   converted to the standard offset (the stated zone's, else the smallest
-  offset seen). Without a stated zone, naive timestamps are read in the
-  nominal offset of the longitude (``round(lon/15)`` h), or UTC, with a warning.
+  offset seen). A zone given for the record (``tz`` argument: ``--tz`` or
+  the section's ``tz``) replaces the file's. Without any zone, naive
+  timestamps are read in the nominal offset of the site's longitude, else the
+  file's (``round(lon/15)`` h), else UTC, with a warning.
 * Empty cells, ``NA`` and ``NaN`` are missing values.
 
 Daily station records (``ghcn-daily-csv``)
