@@ -314,9 +314,13 @@ def step_of(tcol, lines, ctx):
     import pandas as pd
 
     s = tcol.astype(str)
-    if not s.str.match(_ISO_RE).iloc[0] and s.str.match(_YMD_RE).iloc[0]:
+    first = str(s.iloc[0])
+    if not re.match(_ISO_RE, first) and re.match(_YMD_RE, first):
         s = s.str.replace(_YMD_RE, lambda m: f"{m[1]}-{int(m[2]):02d}-{int(m[3]):02d}", regex=True)
-    t = pd.to_datetime(s.str.strip().str.slice(0, 19), format="ISO8601", errors="coerce")
+    try:
+        t = pd.to_datetime(s, format="ISO8601", errors="coerce", utc=True)
+    except (ValueError, TypeError):
+        t = pd.Series(pd.NaT, index=s.index)
     ok = t.notna().to_numpy()
     if ok.sum() < 1:
         i = 0

@@ -94,25 +94,27 @@ def day_to_day_std_K(tmax: pd.Series) -> tuple[float, int]:
 def repeated_years(tmax: pd.Series) -> list[tuple[int, int]]:
     """Pairs of years whose daily maxima agree on :data:`REPEAT_SHARE` of common days (29 Feb dropped)."""
     idx = pd.DatetimeIndex(tmax.index)
-    keep = ~((idx.month == 2) & (idx.day == 29))
-    s = pd.Series(tmax.to_numpy(float)[keep], index=idx[keep])
-    years = {}
-    for y, g in s.groupby(s.index.year):
-        v = np.full(365, np.nan)
-        doy = (g.index - pd.Timestamp(int(y), 1, 1)).days.to_numpy()
-        leap = pd.Timestamp(int(y), 12, 31).dayofyear == 366
-        doy = np.where(leap & (doy > 59), doy - 1, doy)
-        v[doy[doy < 365]] = g.to_numpy()[doy < 365]
-        if np.isfinite(v).sum() >= 180:
-            years[int(y)] = v
-    pairs = []
+    x = tmax.to_numpy(float)
+    keep = ~((idx.month == 2) & (idx.day == 29)) & np.isfinite(x)
+    year = idx.year.to_numpy()[keep]
+    doy = idx.day_of_year.to_numpy()[keep] - 1
+    leap = idx.is_leap_year[keep]
+    doy = np.where(leap & (doy > 59), doy - 1, doy)  # 29 Feb dropped: 1 March is day 59 every year
+    y0 = int(year.min()) if year.size else 0
+    ny = int(year.max()) - y0 + 1 if year.size else 0
+    grid = np.full((ny, 365), np.nan)
+    grid[year - y0, doy] = x[keep]
+    years = {y0 + k: grid[k] for k in range(ny) if np.isfinite(grid[k]).sum() >= 180}
     ys = sorted(years)
-    for i, a in enumerate(ys):
-        for b in ys[i + 1:]:
-            both = np.isfinite(years[a]) & np.isfinite(years[b])
-            if both.sum() >= 180 and np.mean(np.abs(years[a][both] - years[b][both]) < 0.05) >= REPEAT_SHARE:
-                pairs.append((a, b))
-    return pairs
+    if len(ys) < 2:
+        return []
+    G = np.array([years[y] for y in ys])
+    fin = np.isfinite(G)
+    both = (fin[:, None, :] & fin[None, :, :]).sum(axis=2)
+    with np.errstate(invalid="ignore"):
+        same = (np.abs(G[:, None, :] - G[None, :, :]) < 0.05).sum(axis=2)
+    i, j = np.nonzero(np.triu((both >= 180) & (same >= REPEAT_SHARE * np.maximum(both, 1)), k=1))
+    return [(ys[a], ys[b]) for a, b in zip(i, j)]
 
 
 def check_record(data: pd.DataFrame, meta: dict, label: str) -> list[Notice]:
