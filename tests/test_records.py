@@ -376,3 +376,24 @@ def test_command_line_mapping_and_tz_override_the_section(run_cli, tmp_path):
 
 def test_short_years_constant_agrees_with_extremes():
     assert quality.SHORT_YEARS == extremes.SHORT_RECORD_YEARS
+
+
+def test_cf_sub_daily_tas_and_daily_mean_refused(tmp_path):
+    xr = pytest.importorskip("xarray")
+    cftime = pytest.importorskip("cftime")
+    t = cftime.num2date(np.arange(8 * 10) * 3.0, "hours since 2001-07-01 00:00", calendar="proleptic_gregorian")
+    tas = 293.15 + 5 * np.sin(2 * np.pi * (np.arange(80) * 3.0 - 9) / 24)
+    ds = xr.Dataset({"tas": (("time",), tas, {"units": "K"})}, coords={"time": t, "lat": 45.0, "lon": 10.0})
+    p = tmp_path / "tas3h.nc"
+    ds.to_netcdf(p, engine="h5netcdf")
+    data, meta = read_record(p)
+    assert meta["time_step"] == "hourly" and meta["time_step_s"] == 3 * 3600.0
+    assert meta["tz"] == "UTC+01:00"  # nominal zone of the cell's longitude 10: round(10 / 15) = 1 h
+    assert data.index[0] == pd.Timestamp("2001-07-01T00:00Z")
+    assert data["air_temperature_C"].iloc[0] == pytest.approx(tas[0] - 273.15)
+    daily = xr.Dataset({"tas": (("time",), tas[:10], {"units": "K"})},
+                       coords={"time": cftime.num2date(np.arange(10), "days since 2001-07-01", calendar="noleap")})
+    q = tmp_path / "tasday.nc"
+    daily.to_netcdf(q, engine="h5netcdf")
+    with pytest.raises(InputError, match="daily means"):
+        read_record(q)

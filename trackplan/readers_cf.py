@@ -145,13 +145,10 @@ def read_cf(path: Path, ctx):
                           "hour": ymdh[:, 3], "minute": ymdh[:, 4]})
     ok = ~pd.to_datetime(frame, errors="coerce").isna().to_numpy()
     dropped = int((~ok).sum())
-    step_s = float(np.median(np.diff(ymdh[:, 2] * 86400 + ymdh[:, 3] * 3600 + ymdh[:, 4] * 60))) \
-        if len(times) > 1 else 86400.0
-    if step == "hourly" and (len(times) < 2 or abs(step_s) >= 86400 or step_s == 0):
-        diffs = np.diff([t.toordinal() if hasattr(t, "toordinal") else 0 for t in times[:3]])
-        if len(diffs) == 0 or np.median(diffs) >= 1:
-            raise InputError("tas holds one value a day (daily means); daily extremes need tasmax and tasmin",
-                             where)
+    gaps = [(times[k + 1] - times[k]).total_seconds() for k in range(min(len(times) - 1, 100))]
+    step_s = float(np.median(gaps)) if gaps else 86400.0
+    if step == "hourly" and step_s >= 86400.0:
+        raise InputError("tas holds one value a day (daily means); daily extremes need tasmax and tasmin", where)
     t = pd.to_datetime(frame[ok])
     if step == "daily":
         idx = pd.DatetimeIndex(t).normalize()
@@ -168,7 +165,6 @@ def read_cf(path: Path, ctx):
         cols = {"tas": "air_temperature_C"}
         meta["irradiance_timing"] = "instant"
     for n, c in cols.items():
-        f = 1.0
         o = {"K": -273.15, "degC": 0.0, "degF": -32.0}[units[n]]
         f = 5.0 / 9.0 if units[n] == "degF" else 1.0
         data[c] = (data[c].to_numpy(float) + o) * f
