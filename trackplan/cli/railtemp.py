@@ -268,17 +268,19 @@ def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s) -
         Tobs = 1.0 / (1.0 - pp)
         ax.semilogx(Tobs, conv(obs), "o", color="k", ms=4, label="observed annual " + tail)
         if rl is not None:
-            ax.semilogx(T, conv(rl[col]), color=color, label=f"{design.design_basis} fit")
+            ax.semilogx(T, conv(rl[col]), color=color, label=f"{design.distribution} fit")
             lo, hi = rl[f"{tail}_low_C"].to_numpy(float), rl[f"{tail}_high_C"].to_numpy(float)
             if np.all(np.isfinite(lo)):
                 ax.fill_between(T, conv(lo), conv(hi), color=color, alpha=0.2,
                                 label=f"{design.ci_level:.0%} interval")
         ax.axvline(design.return_period_years, color="grey", lw=0.8, ls=":")
+        ax.semilogx([design.return_period_years], conv(getattr(design, f"design_{tail}_rail_temperature_C")), "D",
+                    color=color, mec="k", ms=6, label=f"design value ({design.design_basis})")
         ax.set_xlabel("return period (years)")
         ax.set_ylabel(f"annual {tail} rail temperature ({lab})")
         ax.grid(alpha=0.3, which="both")
         ax.legend(fontsize=8)
-    fig.suptitle(f"{station}: return levels ({design.design_basis})")
+    fig.suptitle(f"{station}: return levels ({design.distribution} fit; design basis {design.design_basis})")
     reports.save_figure(out_dir / "return_levels.png", fig, inputs)
 
     if hourly is not None and np.isfinite(hourly.to_numpy(float)).any():
