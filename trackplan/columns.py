@@ -290,6 +290,16 @@ def csv_plan(names: list[str], mapping, quantities: dict, where_header: str):
     cand = {}
     for h, (name, unit, w) in hdr.columns.items():
         q = quantities.get(name) or quantities[norm(name)]
+        if q.kind not in ("fraction", "percent"):
+            from trackplan import units
+
+            try:
+                units.to_si(1.0, unit, q.kind)
+            except InputError as exc:
+                if " is not a " not in exc.bare_message:
+                    raise InputError(exc.bare_message, w) from None
+                raise InputError(f"unit [{unit}] of {name} (column {h!r}) is not a {q.kind} unit; accepted: "
+                                 + ", ".join(units.accepted_units(q.kind)), w) from None
         cand[h] = (q, unit, w, h in mapped or any(norm(h) == norm(m) for m in mapped))
     return names[hdr.time_index], cand, list(hdr.ignored)
 
