@@ -397,3 +397,11 @@ def test_cf_sub_daily_tas_and_daily_mean_refused(tmp_path):
     daily.to_netcdf(q, engine="h5netcdf")
     with pytest.raises(InputError, match="daily means"):
         read_record(q)
+
+
+def test_common_names_with_a_unit_in_the_header_are_read(tmp_path):
+    text = "DATE,TMAX [degF],temp_min [degF],PRCP\n2020-07-01,104,77,0\n2020-07-02,106.7,80.6,3\n"
+    data, meta = read_record(write(tmp_path, text))
+    np.testing.assert_allclose(data["tmax_C"], [40.0, 41.5], atol=1e-9)
+    np.testing.assert_allclose(data["tmin_C"], [25.0, 27.0], atol=1e-9)
+    assert any(w.code == "ignored_columns" and "'PRCP'" in w for w in meta["warnings"])

@@ -12,7 +12,8 @@ the header itself carries it (``tmax [degC]``).
 
 Without a mapping, a CSV header is read as follows:
 
-* a column ``name [unit]`` whose name is a quantity of the record is read;
+* a column ``name [unit]`` whose name is a quantity of the record, or a
+  common name of one (:data:`COMMON_NAMES`), is read;
 * a column with a common name of a needed quantity (``TMAX``, ``temp_max``,
   ``tasmax``, ``max_temp``, ``temp``...: :data:`COMMON_NAMES`) but no unit is
   refused: the message proposes the exact ``--column`` to write. A unit is
@@ -224,6 +225,8 @@ def resolve_header(names: list[str], mapping: dict[str, ColumnMap] | None, quant
             continue
         m = _SOURCE_RE.match(h)
         qname, unit = norm(m.group(1)), (m.group(2) or "").strip()
+        if qname not in quantities and recognised(h) in quantities:
+            qname = recognised(h)  # a common name (temp_max, TMAX, tasmax...) with its unit in the header
         q = quantities.get(qname)
         if q is not None and unit and q.column not in mapped_cols:
             taken[i] = (qname, unit, f"{where_header} column {i + 1} {h!r}")
