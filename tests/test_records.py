@@ -14,7 +14,6 @@ Real records used (shipped by registry packages, read exactly as published):
 from __future__ import annotations
 
 import json
-import math
 from pathlib import Path
 
 import numpy as np

@@ -163,7 +163,7 @@ def _equation_of_time_min(doy: np.ndarray) -> np.ndarray:
                      - 0.014615 * np.cos(2 * g) - 0.040849 * np.sin(2 * g))
 
 
-def _check_solar_timing(data: pd.DataFrame, meta: dict, ctx: _Ctx) -> None:
+def _check_solar_timing(data: pd.DataFrame, meta: dict, ctx) -> None:
     """Warn when irradiance does not peak near solar noon (time zone, longitude, DST)."""
     lon, off = meta.get("longitude_deg"), meta.get("utc_offset_h")
     if "ghi_W_m2" not in data or lon is None or off is None:
