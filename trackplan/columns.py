@@ -387,7 +387,10 @@ def csv_keep(used: dict, cand: dict, ignored: list, names: list, step_kind: str,
                             else '"tmax=temp_max [degC]" --column "tmin=temp_min [degC]"'),
                          where_header)
     if ignored:
+        bare = [h for h in ignored if not _SOURCE_RE.match(h).group(2) and (recognised(h) or norm(h) in CANONICAL)]
         ctx.warn("column(s) ignored, not used: " + ", ".join(repr(h) for h in ignored)
+                 + (f"; {', '.join(repr(h) for h in bare)} name(s) a quantity but give no unit, so are not read"
+                    if bare else "")
                  + " (map a column with --column QUANTITY=\"COLUMN [UNIT]\" to read it)", code="ignored_columns")
     return out
 

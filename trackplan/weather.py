@@ -295,10 +295,7 @@ CSV_QUANTITIES: dict[str, _Quantity] = {
 _FRACTION_UNITS = {"1": 1.0, "fraction": 1.0, "-": 1.0, "%": 0.01, "percent": 0.01, "pct": 0.01,
                    "okta": 1 / 8, "oktas": 1 / 8, "tenths": 0.1}
 
-_TIME_NAMES = {"time", "timestamp", "datetime", "date_time"}
-_DATE_NAMES = {"date", "day"}
 
-_HEADER_RE = re.compile(r"^\s*([^\[\]]*?)\s*\[(.*)\]\s*$")
 _META_RE = re.compile(r"^\s*#\s*([A-Za-z_][\w \-]*?)\s*[:=]\s*(.*?)\s*$")
 _OFFSET_RE = re.compile(r"^(?:UTC|GMT)?\s*([+-])\s*(\d{1,2})(?::?(\d{2}))?$", re.IGNORECASE)
 _TS_OFFSET_RE = re.compile(r"(?:Z|[+-]\d{2}:?\d{2})$")
@@ -696,11 +693,6 @@ def _read_trackplan_csv(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
     _check_values(data, meta, lines, used, ctx)
     data = _finish(data, meta, ctx, step_kind)
     return data, meta
-
-
-def _unit_example(q: _Quantity) -> str:
-    return {"temperature": "degC", "irradiance": "W/m**2", "speed": "m/s", "percent": "%",
-            "fraction": "1"}[q.kind]
 
 
 def _unit_factor(unit: str, q: _Quantity, where: str) -> tuple[float, float]:
