@@ -300,3 +300,5 @@ def test_design_never_milder_than_the_record():
     assert float(de.min_fit.return_level(50)) > -60.0 and float(de.max_fit.return_level(50)) < 95.0
     assert de.design_min_rail_temperature_C == -60.0 and de.design_max_rail_temperature_C == 95.0
     assert sum("is the recorded value" in w for w in de.warnings) == 2
+    # the printed intervals are widened to the recorded values: a design value is never outside its interval
+    assert de.max_ci_C[0] <= 95.0 <= de.max_ci_C[1] and de.min_ci_C[0] <= -60.0 <= de.min_ci_C[1]
