@@ -82,7 +82,7 @@ def test_json_daily_record_gev():
     assert js["design_basis"] == "gev" and js["return_period_years"] == 25.0
     # daily-extremes path: rail minimum = air minimum (docs/methods/rail-temperature.md)
     assert all(a["min_rail_temperature_C"] == a["min_air_temperature_C"] for a in js["annual"])
-    assert any("clear sky" in w for w in js["warnings"])
+    assert any("clear sky" in w for w in (x["message"] for x in js["warnings"]))
 
 
 def test_rule_of_thumb_method_on_daily_record():
@@ -98,7 +98,11 @@ def test_typical_year_tmy3_is_observed():
     assert r.exit_code == 0, r.output
     js = json.loads(r.stdout)
     assert js["design_basis"] == "observed" and js["years"] == 1
-    assert any("observed extremes" in w for w in js["warnings"])
+    assert any("observed extremes" in w for w in (x["message"] for x in js["warnings"]))
+    codes = {x["code"] for x in js["warnings"]}
+    assert {"typical_year", "observed_extreme_used"} <= codes
+    assert all(set(x) == {"code", "message", "where"} for x in js["warnings"])
+    assert js["inputs"]["tz"] == "UTC-05:00" and js["inputs"]["time_step"] == "hourly"
 
 
 def test_terminal_output_units_and_out_files(small_hourly, tmp_path):
@@ -169,4 +173,4 @@ def test_record_with_a_missing_year_warns(tmp_path):
     assert r.exit_code == 0, r.output
     js = json.loads(r.stdout)
     assert 2003 not in [a["year"] for a in js["annual"]]
-    assert any("2003" in w for w in js["warnings"])
+    assert any("2003" in w for w in (x["message"] for x in js["warnings"]))

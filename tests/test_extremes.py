@@ -189,10 +189,68 @@ def test_design_extremes_gev():
 
 
 def test_short_record_warns():
-    de = ex.design_extremes(_daily(years=6), 50)
-    assert de.design_basis == "gumbel"
+    # 6 years < min_record_years(50) = 13: observed extreme plus allowance, unless allow_short
+    d = _daily(years=6)
+    de = ex.design_extremes(d, 50)
+    assert ex.min_record_years(50) == 13 and ex.min_record_years(20) == 10 and ex.min_record_years(100) == 25
+    assert de.design_basis == "observed+allowance"
     assert any("only 6 complete years" in w for w in de.warnings)
-    assert any("extrapolated" in w for w in de.warnings)
+    assert "short_record" in [w.code for w in de.warnings]
+    a = ex.short_record_allowance_K(6, 50, de.max_fit.params[1])
+    assert de.design_max_rail_temperature_C == pytest.approx(de.observed_max_rail_temperature_C + a)
+    lo, hi = de.max_ci_C
+    assert lo <= de.design_max_rail_temperature_C <= hi
+    fit = ex.design_extremes(d, 50, allow_short=True)
+    assert fit.design_basis == "gumbel" and "short_record" in [w.code for w in fit.warnings]
+
+
+def test_short_record_allowance_formula():
+    # Gumbel (1958): expected largest of n standard Gumbel values is gamma + ln n; the T-year level is
+    # y_T = -ln(-ln(1 - 1/T)). 4 years, T = 50: 3.9019 - 0.5772 - 1.3863 = 1.9384 scales.
+    assert ex.short_record_allowance_K(4, 50, 1.0) == pytest.approx(2.0 * 1.93843, abs=1e-4)
+    assert ex.short_record_allowance_K(4, 50, 3.0) == pytest.approx(3.0 * 1.93843, abs=1e-4)
+    assert ex.short_record_allowance_K(200, 50, 3.0) == 0.0
+
+
+def test_four_year_interval_much_wider_than_thirty_and_contains_design():
+    # The same synthetic climate (seasonal cycle plus daily noise) for 4 and for 30 years: the exact pivotal
+    # interval of the 50-year level (Lawless 2003, 5.1) carries the uncertainty of the scale too, so
+    # four years give an interval several times wider (the width scales roughly as 1/sqrt(n) and, for
+    # very small n, with the heavy tail of 1 / beta_hat).
+    widths4, widths30 = [], []
+    for seed in range(5):
+        d4 = _daily(years=4, seed=seed)
+        d30 = _daily(years=30, seed=seed)
+        for d, widths in ((d4, widths4), (d30, widths30)):
+            de = ex.design_extremes(d, 50, "gumbel", allow_short=True)
+            lo, hi = de.max_ci_C
+            assert lo <= de.design_max_rail_temperature_C <= hi
+            widths.append(hi - lo)
+            short = ex.design_extremes(d, 50, "gumbel")
+            lo, hi = short.max_ci_C
+            assert lo <= short.design_max_rail_temperature_C <= hi
+            lo, hi = short.min_ci_C
+            assert lo <= short.design_min_rail_temperature_C <= hi
+    assert np.median(widths4) > 3.0 * np.median(widths30)
+
+
+def test_pivot_interval_coverage_four_years():
+    """The pivotal interval is exact for the Gumbel: over 300 simulated 4-year records its 90 % interval
+    of the 50-year level covers the truth about 90 % of the time (Monte Carlo: 0.85-0.95), where the
+    percentile bootstrap from the fitted parameters covers far less."""
+    rng = np.random.default_rng(5)
+    mu, beta, T = 50.0, 2.5, 50
+    truth = mu - beta * math.log(-math.log(1 - 1 / T))
+    hits_p = hits_b = 0
+    for k in range(300):
+        x = rng.gumbel(mu, beta, 4)
+        (lo,), (hi,) = ex.fit_extremes(x, "gumbel", n_boot=1000, seed=k, ci_level=0.9).interval(T)
+        hits_p += lo <= truth <= hi
+        (lo,), (hi,) = ex.fit_extremes(x, "gumbel", ci_method="bootstrap", n_boot=200, seed=k,
+                                       ci_level=0.9).interval(T)
+        hits_b += lo <= truth <= hi
+    assert 0.85 <= hits_p / 300 <= 0.95
+    assert hits_b / 300 < 0.8
 
 
 def test_under_three_years_and_typical_year_use_observed():
@@ -242,3 +300,5 @@ def test_design_never_milder_than_the_record():
     assert float(de.min_fit.return_level(50)) > -60.0 and float(de.max_fit.return_level(50)) < 95.0
     assert de.design_min_rail_temperature_C == -60.0 and de.design_max_rail_temperature_C == 95.0
     assert sum("is the recorded value" in w for w in de.warnings) == 2
+    # the printed intervals are widened to the recorded values: a design value is never outside its interval
+    assert de.max_ci_C[0] <= 95.0 <= de.max_ci_C[1] and de.min_ci_C[0] <= -60.0 <= de.min_ci_C[1]

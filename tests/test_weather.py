@@ -79,7 +79,8 @@ def test_tmy3_agrees_with_pvlib_read_tmy3(fname):
     assert meta["typical_year"] is True and meta["years"] == [TYPICAL_YEAR]
     assert meta["irradiance_timing"] == "hour-ending" and meta["solar_position_shift_min"] == -30.0
     assert meta["gaps"]["count"] == 0
-    assert meta["warnings"] == []  # includes: irradiance centred on solar noon (no time-zone warning)
+    # only the typical-year notice: irradiance centred on solar noon (no time-zone warning), no gaps
+    assert [w.code for w in meta["warnings"]] == ["typical_year"]
 
 
 def test_tmy3_metadata_values():
@@ -96,7 +97,7 @@ def test_hour_ending_irradiance_centred_half_an_hour_after_solar_noon():
     # TMY3 irradiance is the mean of the hour ending at the timestamp (Wilcox and Marion 2008,
     # TMY3 User's Manual): the GHI-weighted mean clock hour lies 0.5 h after solar noon.
     # Solar noon from the longitude and the equation of time (Spencer 1971).
-    from trackplan.weather import _equation_of_time_min
+    from trackplan.quality import _equation_of_time_min
 
     data, meta = read_record(_pvlib_data() / GREENSBORO)
     g = data["ghi_W_m2"]
@@ -155,7 +156,7 @@ def test_epw_agrees_with_pvlib_read_epw(tmp_path):
     # same instants as the TMY3 the file was built from
     tmy, _ = read_record(_pvlib_data() / GREENSBORO)
     assert data.index.equals(tmy.index)
-    assert meta["warnings"] == []
+    assert [w.code for w in meta["warnings"]] == ["typical_year"]
 
 
 # --------------------------------------------------------------------------

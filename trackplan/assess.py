@@ -47,6 +47,8 @@ class ClimateResult:
     station: str
     hot_month: str | None
     warnings: list[str] = field(default_factory=list)
+    tz: str | None = None  # zone the record's timestamps were read in
+    time_step: str | None = None  # "hourly" or "daily", from the timestamps
 
     @property
     def design_max_C(self) -> float:
@@ -110,26 +112,52 @@ class Assessor:
     priority : str
         What an empty neutral window gives way to (``heat`` or ``cold``; see
         :func:`trackplan.target.recommend_neutral`).
+    columns : dict, optional
+        Column mapping from the command line; overrides each section's ``columns``.
+    tz : str, optional
+        Zone of naive timestamps from the command line; overrides each section's ``tz``.
+    allow_short : bool
+        Fit return levels on records shorter than the minimum for the return period.
     """
 
     def __init__(self, return_period_years: float | None = None, distribution: str = "gumbel",
-                 priority: str = "heat"):
+                 priority: str = "heat", columns: dict | None = None, tz: str | None = None,
+                 allow_short: bool = False):
         self.return_period_years = return_period_years
         self.distribution = distribution
         self.priority = priority
+        self.columns = columns or {}
+        self.tz = tz
+        self.allow_short = allow_short
         self._records: dict = {}
         self._daily: dict = {}
         self._design: dict = {}
         self._stability: dict = {}
 
     # -- climate --------------------------------------------------------
-    def record(self, path: Path, where: str):
-        from trackplan import weather
+    def record(self, path: Path, where: str, section: Section | None = None):
+        from trackplan import columns, weather
 
-        key = str(path)
+        base = {c.name: c for c in section.climate_columns} if section is not None else {}
+        mapping = columns.merge(base, self.columns)
+        tz = self.tz or (section.climate_tz if section is not None else None)
+        site = (section.latitude_deg, section.longitude_deg) if section is not None else None
+        key = self.record_key(path, section)
         if key not in self._records:
-            self._records[key] = weather.read_record(path, where=where)
+            self._records[key] = weather.read_record(path, where=where, columns=mapping, tz=tz, site=site)
         return self._records[key]
+
+    def record_key(self, path: Path, section: Section | None) -> tuple:
+        """What a record read depends on: file, column mapping, zone; the site only through the
+        nominal zone of its longitude, or the nearest cell of a gridded file."""
+        from trackplan import columns, readers_cf
+
+        base = {c.name: c for c in section.climate_columns} if section is not None else {}
+        tz = self.tz or (section.climate_tz if section is not None else None)
+        lat = section.latitude_deg if section is not None else None
+        lon = section.longitude_deg if section is not None else None
+        site = (lat, lon) if readers_cf.is_netcdf(path) else (None if lon is None else round(lon / 15.0))
+        return (str(path), columns.key(columns.merge(base, self.columns)), tz, site)
 
     def site_for(self, section: Section, meta: dict):
         from trackplan.railtemp import RailSite
@@ -152,9 +180,9 @@ class Assessor:
         from trackplan import railtemp
 
         where = f"{section.file.name} [sections.{section.id}] climate"
-        df, meta = self.record(section.climate_path, where)
+        df, meta = self.record(section.climate_path, where, section)
         site = self.site_for(section, meta)
-        key = (str(section.climate_path), round(site.latitude_deg, 4), round(site.longitude_deg, 4),
+        key = (self.record_key(section.climate_path, section), round(site.latitude_deg, 4), round(site.longitude_deg, 4),
                round(site.shade_factor, 3), section.profile.name, section.rail_temperature_method,
                site.track_azimuth_deg)
         if key not in self._daily:
@@ -172,13 +200,14 @@ class Assessor:
         if dkey not in self._design:
             design = extremes.design_extremes(daily, return_period_years=rp, distribution=self.distribution,
                                               typical_year=bool(meta.get("typical_year")),
-                                              years=meta.get("years"))
+                                              years=meta.get("years"), allow_short=self.allow_short)
             self._design[dkey] = (design, _hot_month(daily))
         design, month = self._design[dkey]
         warnings = list(dict.fromkeys(list(meta.get("warnings", [])) + list(daily.attrs.get("warnings", []))
                                       + list(design.warnings)))
         return ClimateResult(design, daily.attrs.get("method", section.rail_temperature_method),
-                             str(meta.get("station", section.climate_path.stem)), month, warnings)
+                             str(meta.get("station", section.climate_path.stem)), month, warnings,
+                             meta.get("tz"), meta.get("time_step"))
 
     # -- track ----------------------------------------------------------
     def track_input(self, section: Section, ballast: str | None = None):

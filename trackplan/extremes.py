@@ -15,10 +15,27 @@ the hottest day of one year (docs/methods/design-extremes.md). From daily rail e
   and vectorised) or the delta method on the observed information (GEV, as in
   Coles 2001, 3.3.3; a bootstrap is available too).
 
-Records shorter than :data:`SHORT_RECORD_YEARS` years are fitted with a
-warning; with fewer than :data:`MIN_FIT_YEARS` years, or for a typical-year
-file, the design values are the observed extremes and the result says so
-(``design_basis = "observed"``).
+Honest extremes for short records:
+
+* the Gumbel interval is exact for a location-scale family: the pivot
+  ``Z = (x_T_hat - x_T) / beta_hat`` has a distribution that does not depend on
+  the true parameters, so it is simulated once from the standard Gumbel at the
+  record's length (Lawless 2003, 5.1; the bootstrap-t of Efron & Tibshirani
+  1993, ch. 12) and the interval is ``x_T_hat - z_(1-a/2) beta_hat .. x_T_hat -
+  z_(a/2) beta_hat``. It carries the uncertainty of both parameters: four years
+  give an interval many times wider than thirty;
+* a T-year return level is fitted only from :func:`min_record_years` complete
+  years or more (a planning choice: at least 10 years, and a return period
+  no more than :data:`EXTRAPOLATION_FACTOR` times the record). Below it the
+  design value is the observed extreme plus a stated allowance
+  (:func:`short_record_allowance_K`, ``design_basis = "observed+allowance"``),
+  unless ``allow_short`` asks for the fitted level; both carry the
+  ``short_record`` warning;
+* with fewer than :data:`MIN_FIT_YEARS` years, or for a typical-year file,
+  the design values are the observed extremes (``design_basis = "observed"``);
+* the printed interval always contains the design value: when the design
+  value is the recorded extreme or the observed extreme plus allowance, the
+  interval is widened to it, and a warning says so.
 
 References
 ----------
@@ -30,6 +47,9 @@ Jenkinson, A. F. (1955). The frequency distribution of the annual maximum (or
 minimum) values of meteorological elements. QJRMS 81, 158-171 (GEV).
 Efron, B., Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman
 & Hall, ch. 13 (percentile intervals).
+Lawless, J. F. (2003). Statistical Models and Methods for Lifetime Data, 2nd ed.
+Wiley, section 5.1 (exact intervals in location-scale models from pivotal
+quantities, by simulation).
 Gringorten, I. I. (1963). A plotting rule for extreme probability paper.
 Journal of Geophysical Research 68, 813-814 (plotting positions).
 """
@@ -43,11 +63,19 @@ from typing import Callable
 import numpy as np
 
 from trackplan.errors import InputError
+from trackplan.notices import Notice
 
 #: Fewer complete years than this: design values are the observed extremes.
 MIN_FIT_YEARS = 3
 #: Fewer complete years than this: the fit is made, with a warning.
 SHORT_RECORD_YEARS = 10
+#: A T-year return level is fitted from at least ``max(SHORT_RECORD_YEARS, ceil(T / EXTRAPOLATION_FACTOR))``
+#: complete years (:func:`min_record_years`): a planning choice, not a published rule.
+EXTRAPOLATION_FACTOR = 4.0
+#: Smallest Gumbel scale [K] used for the allowance above the observed extreme of a short record
+#: (:func:`short_record_allowance_K`): a planning choice; annual maximum air temperatures at
+#: mid-latitude stations have Gumbel scales of about 1-2.5 K (from memory).
+ALLOWANCE_SCALE_K = 2.0
 #: A year is complete enough with at least this share of its days ...
 YEAR_MIN_COVERAGE = 0.9
 #: ... and at least this share of the days of every month (a missing July
@@ -369,10 +397,11 @@ class ExtremeFit:
         shape) of the fitted series [degC for location and scale].
     n_years : int
     ci_method : str
-        ``"bootstrap"``, ``"delta"`` or ``"none"``.
+        ``"pivot"``, ``"bootstrap"``, ``"delta"`` or ``"none"``.
     ci_level : float
     boot_params : numpy.ndarray or None
-        Bootstrap parameter sets, shape (n_boot, k).
+        Bootstrap parameter sets, shape (n_boot, k) (pivot: fits of standard
+        Gumbel samples of the record's length).
     covariance : numpy.ndarray or None
         Covariance of the parameter estimates (delta method).
     """
@@ -401,7 +430,16 @@ class ExtremeFit:
         p = 1.0 - 1.0 / T
         dist = DISTRIBUTIONS[self.distribution]
         alpha = 1.0 - self.ci_level
-        if self.ci_method == "bootstrap" and self.boot_params is not None:
+        if self.ci_method == "pivot" and self.boot_params is not None:
+            # Z = (x_T_hat - x_T) / beta_hat from fits (mu*, beta*) of standard Gumbel samples
+            y = -np.log(-np.log(p))
+            mu_s, b_s = self.boot_params[:, 0:1], self.boot_params[:, 1:2]
+            z = (mu_s + b_s * y[None, :] - y[None, :]) / b_s
+            centre = dist.quantile(p, np.asarray(self.params))
+            beta = self.params[1]
+            lo = centre - np.quantile(z, 1 - alpha / 2, axis=0) * beta
+            hi = centre - np.quantile(z, alpha / 2, axis=0) * beta
+        elif self.ci_method == "bootstrap" and self.boot_params is not None:
             levels = dist.quantile(p[None, :], self.boot_params[:, None, :])  # (B, nT)
             levels = levels[np.all(np.isfinite(levels), axis=1)]
             lo = np.quantile(levels, alpha / 2, axis=0)
@@ -441,9 +479,11 @@ def fit_extremes(values, distribution: str = "gumbel", tail: str = "max", ci_met
         Key of :data:`DISTRIBUTIONS`.
     tail : {"max", "min"}
         Minima are fitted as negated maxima.
-    ci_method : {"auto", "bootstrap", "delta", "none"}
-        ``auto``: parametric bootstrap for Gumbel, delta method for GEV
-        (a GEV bootstrap refits by numerical optimisation and is slow).
+    ci_method : {"auto", "pivot", "bootstrap", "delta", "none"}
+        ``auto``: the exact pivotal interval for Gumbel (simulated, Lawless
+        2003, 5.1), delta method for GEV (a GEV bootstrap refits by numerical
+        optimisation and is slow). ``bootstrap``: percentile parametric
+        bootstrap.
     n_boot : int
         Bootstrap samples.
     seed : int
@@ -482,9 +522,15 @@ def fit_extremes(values, distribution: str = "gumbel", tail: str = "max", ci_met
         return ExtremeFit(distribution, tail, params, int(x.size), "none", ci_level)
     params = tuple(float(v) for v in dist.fit(x))
     if ci_method == "auto":
-        ci_method = "bootstrap" if distribution == "gumbel" else "delta"
+        ci_method = "pivot" if distribution == "gumbel" else "delta"
+    if ci_method == "pivot" and distribution != "gumbel":
+        raise InputError("the pivotal interval is for the Gumbel distribution; accepted for GEV: delta, bootstrap",
+                         "ci_method")
     fit = ExtremeFit(distribution, tail, params, int(x.size), ci_method, ci_level)
-    if ci_method == "bootstrap" and n_boot > 0:
+    if ci_method == "pivot" and n_boot > 0:
+        rng = np.random.default_rng(seed)
+        fit.boot_params = _gumbel_fit_many(rng.gumbel(0.0, 1.0, size=(max(n_boot, 1000), x.size)))
+    elif ci_method == "bootstrap" and n_boot > 0:
         rng = np.random.default_rng(seed)
         samples = np.vstack([dist.sample(rng, params, x.size) for _ in range(n_boot)]) \
             if distribution != "gumbel" else rng.gumbel(params[0], params[1], size=(n_boot, x.size))
@@ -499,8 +545,8 @@ def fit_extremes(values, distribution: str = "gumbel", tail: str = "max", ci_met
             fit.ci_method = "none"
         else:
             fit.covariance = cov
-    elif ci_method not in ("none", "bootstrap"):
-        raise InputError(f"unknown interval method {ci_method!r}; accepted: auto, bootstrap, delta, none",
+    elif ci_method not in ("none", "bootstrap", "pivot"):
+        raise InputError(f"unknown interval method {ci_method!r}; accepted: auto, pivot, bootstrap, delta, none",
                          "ci_method")
     else:
         fit.ci_method = "none" if n_boot <= 0 else ci_method
@@ -525,8 +571,9 @@ class DesignExtremes:
     Attributes
     ----------
     design_basis : str
-        ``"gumbel"``, ``"gev"`` (fitted return levels) or ``"observed"``
-        (observed extremes of a short or typical-year record).
+        ``"gumbel"``, ``"gev"`` (fitted return levels), ``"observed"``
+        (observed extremes of a very short or typical-year record) or
+        ``"observed+allowance"`` (short record: observed extreme plus allowance).
     return_period_years : float
         Return period of the design values [years].
     design_max_rail_temperature_C, design_min_rail_temperature_C : float
@@ -616,9 +663,51 @@ class DesignExtremes:
         }
 
 
+def min_record_years(return_period_years: float) -> int:
+    """Complete years needed to fit a return level: ``max(SHORT_RECORD_YEARS, ceil(T / EXTRAPOLATION_FACTOR))``.
+
+    A planning choice (not a published rule): 10 years for T up to 40, 13 for
+    50, 25 for 100 years.
+    """
+    return max(SHORT_RECORD_YEARS, math.ceil(float(return_period_years) / EXTRAPOLATION_FACTOR))
+
+
+def short_record_allowance_K(n_years: int, return_period_years: float, scale_K: float = 0.0) -> float:
+    """Allowance [K] added to the observed extreme of a short record.
+
+    Notes
+    -----
+    For a Gumbel variable of scale ``beta``, the expected largest of ``n``
+    annual values lies ``beta (gamma + ln n)`` above the location and the
+    ``T``-year level ``beta y_T`` above it, ``y_T = -ln(-ln(1 - 1/T))``
+    (Gumbel 1958). The allowance is the difference::
+
+        a = max(beta, ALLOWANCE_SCALE_K) * max(y_T - gamma - ln n, 0)
+
+    with the fitted scale, but never below :data:`ALLOWANCE_SCALE_K` (a planning
+    choice): 4 years and T = 50 give 1.94 scales, 3.9 K at 2 K.
+    """
+    y = -math.log(-math.log(1.0 - 1.0 / float(return_period_years)))
+    return max(float(scale_K), ALLOWANCE_SCALE_K) * max(y - _EULER_GAMMA - math.log(n_years), 0.0)
+
+
+def _containing(ci, value: float, label: str, warnings: list):
+    """The interval as a pair of floats, widened to contain the design value (with a warning)."""
+    if ci is None:
+        return None
+    lo, hi = float(ci[0][0]), float(ci[1][0])
+    if value > hi or value < lo:
+        warnings.append(Notice(f"the design {label} {value:.1f} degC lies outside the interval of the fitted level "
+                               f"({lo:.1f} to {hi:.1f} degC); the interval shown is widened to it",
+                               "observed_extreme_used", "record"))
+        lo, hi = min(lo, value), max(hi, value)
+    return lo, hi
+
+
 def design_extremes(daily, return_period_years: float = 50, distribution: str = "gumbel",
-                    typical_year: bool = False, n_boot: int = 200, seed: int = 0,
-                    ci_level: float = 0.95, years=None, ci_method: str = "auto") -> DesignExtremes:
+                    typical_year: bool = False, n_boot: int = 1000, seed: int = 0,
+                    ci_level: float = 0.95, years=None, ci_method: str = "auto",
+                    allow_short: bool = False) -> DesignExtremes:
     """Design maximum and minimum rail temperature of a record.
 
     Parameters
@@ -644,6 +733,9 @@ def design_extremes(daily, return_period_years: float = 50, distribution: str = 
         Years the reader found complete (``meta["years"]``).
     ci_method : str
         See :func:`fit_extremes`.
+    allow_short : bool
+        Below :func:`min_record_years`, use the fitted return level rather than
+        the observed extreme plus :func:`short_record_allowance_K`.
 
     Returns
     -------
@@ -688,46 +780,73 @@ def design_extremes(daily, return_period_years: float = 50, distribution: str = 
     if typical_year or n < MIN_FIT_YEARS:
         why = ("a typical-year record stands for no particular year and cannot give a return level"
                if typical_year else f"{n} complete year(s) are too few to fit (need {MIN_FIT_YEARS})")
-        warnings.append(f"design values are the observed extremes, not {rp:g}-year return levels: {why}")
+        warnings.append(Notice(f"design values are the observed extremes, not {rp:g}-year return levels: {why}",
+                               "observed_extreme_used", "record"))
+        if not typical_year:
+            warnings.append(Notice(f"short record: {n} complete year(s); a {rp:g}-year level needs "
+                                   f"{min_record_years(rp)}", "short_record", "record"))
         return DesignExtremes(design_basis="observed", design_max_rail_temperature_C=obs_max,
                               design_min_rail_temperature_C=obs_min, max_ci_C=None, min_ci_C=None,
                               warnings=warnings, **common)
-    if n < SHORT_RECORD_YEARS:
-        warnings.append(
-            f"only {n} complete years: the {rp:g}-year return levels rest on a short record and "
-            f"are uncertain (about {SHORT_RECORD_YEARS} years or more are needed for a fit to mean much)"
-        )
-    if rp > 4 * n:
-        warnings.append(f"the {rp:g}-year return period is more than four times the {n}-year record: "
-                        "the fit is extrapolated far")
+    need = min_record_years(rp)
+    short = n < need
+    if short:
+        warnings.append(Notice(
+            f"short record: only {n} complete years, fewer than the {need} needed for a {rp:g}-year level "
+            f"(at least {SHORT_RECORD_YEARS}, and a return period at most {EXTRAPOLATION_FACTOR:g} times the "
+            "record: a planning choice); "
+            + ("the fitted level is used as asked (allow_short), with its wide interval" if allow_short else
+               "the design values are the observed extremes plus an allowance (allow_short to use the fit)"),
+            "short_record", "record"))
+    if rp > EXTRAPOLATION_FACTOR * n and not short:
+        warnings.append(Notice(f"the {rp:g}-year return period is more than four times the {n}-year record: "
+                               "the fit is extrapolated far", "extrapolated", "record"))
     fmax = fit_extremes(annual.max_rail_temperature_C, distribution, "max", ci_method, n_boot, seed, ci_level)
     fmin = fit_extremes(annual.min_rail_temperature_C, distribution, "min", ci_method, n_boot, seed + 1, ci_level)
     dmax = float(fmax.return_level(rp))
     dmin = float(fmin.return_level(rp))
     cmax = fmax.interval(rp)
     cmin = fmin.interval(rp)
-    # A design value is never milder than what the record already shows (about 45 % of 30-year
-    # records hold a year beyond their own 50-year level): planning takes the recorded extreme then.
-    if obs_max > dmax:
-        warnings.append(f"the highest rail temperature in the record, {obs_max:.1f} degC, is above the {rp:g}-year "
-                        f"return level {dmax:.1f} degC: the design maximum is the recorded value")
-        dmax = obs_max
-    if obs_min < dmin:
-        warnings.append(f"the lowest rail temperature in the record, {obs_min:.1f} degC, is below the {rp:g}-year "
-                        f"return level {dmin:.1f} degC: the design minimum is the recorded value")
-        dmin = obs_min
+    basis = distribution
+    if short and not allow_short:
+        amax = short_record_allowance_K(n, rp, fmax.params[-1])
+        amin = short_record_allowance_K(n, rp, fmin.params[-1])
+        dmax, dmin = obs_max + amax, obs_min - amin
+        basis = "observed+allowance"
+        warnings.append(Notice(
+            f"design maximum {dmax:.1f} degC = recorded {obs_max:.1f} degC + allowance {amax:.1f} K; design minimum "
+            f"{dmin:.1f} degC = recorded {obs_min:.1f} degC - {amin:.1f} K (allowance: Gumbel scale, at least "
+            f"{ALLOWANCE_SCALE_K:g} K, times the distance in reduced variate from the expected {n}-year maximum to "
+            f"the {rp:g}-year level)", "observed_extreme_used", "record"))
+    else:
+        # A design value is never milder than what the record already shows (about 45 % of 30-year
+        # records hold a year beyond their own 50-year level): planning takes the recorded extreme then.
+        if obs_max > dmax:
+            warnings.append(Notice(
+                f"the highest rail temperature in the record, {obs_max:.1f} degC, is above the {rp:g}-year "
+                f"return level {dmax:.1f} degC: the design maximum is the recorded value",
+                "observed_extreme_used", "record"))
+            dmax = obs_max
+        if obs_min < dmin:
+            warnings.append(Notice(
+                f"the lowest rail temperature in the record, {obs_min:.1f} degC, is below the {rp:g}-year "
+                f"return level {dmin:.1f} degC: the design minimum is the recorded value",
+                "observed_extreme_used", "record"))
+            dmin = obs_min
     if distribution == "gev":
         for fit, label in ((fmax, "maxima"), (fmin, "minima")):
             xi = fit.params[0]
             if xi > 0.3:
-                warnings.append(f"GEV fit of the annual {label} has a heavy tail (shape {xi:.2f}); "
-                                "return levels grow fast with the return period")
+                warnings.append(Notice(f"GEV fit of the annual {label} has a heavy tail (shape {xi:.2f}); "
+                                       "return levels grow fast with the return period", "heavy_tail", "record"))
+    cmax = _containing(cmax, dmax, "maximum", warnings)
+    cmin = _containing(cmin, dmin, "minimum", warnings)
     return DesignExtremes(
-        design_basis=distribution,
+        design_basis=basis,
         design_max_rail_temperature_C=dmax,
         design_min_rail_temperature_C=dmin,
-        max_ci_C=None if cmax is None else (float(cmax[0][0]), float(cmax[1][0])),
-        min_ci_C=None if cmin is None else (float(cmin[0][0]), float(cmin[1][0])),
+        max_ci_C=cmax,
+        min_ci_C=cmin,
         warnings=warnings,
         max_fit=fmax,
         min_fit=fmin,

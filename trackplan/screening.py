@@ -116,7 +116,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from trackplan import thermal
+from trackplan import notices, thermal
 from trackplan.check import DEFAULT_WATCH_FRACTION
 from trackplan.errors import InputError
 
@@ -639,6 +639,7 @@ class SectionScreen:
     notes: list = field(default_factory=list)
     warnings: list = field(default_factory=list)
     climate_path: object = None  # pathlib.Path of the record
+    inputs: dict = field(default_factory=dict)  # how the record was read: tz, time_step
 
     @property
     def complete_years(self) -> int:
@@ -753,6 +754,7 @@ class _RecordView:
     typical_year: bool
     station: str
     warnings: tuple
+    inputs: dict  # how the record was read: tz, time_step
     groups: tuple  # numpy.unique(years, return_inverse=True)
     season_days: np.ndarray  # days of each unique year's season
 
@@ -834,6 +836,7 @@ class Screener:
                 typical_year=bool(meta.get("typical_year")),
                 station=str(meta.get("station") or section.climate_path.stem),
                 warnings=tuple(meta.get("warnings", [])) + tuple(daily.attrs.get("warnings", [])),
+                inputs={"tz": meta.get("tz"), "time_step": meta.get("time_step")},
                 groups=groups,
                 season_days=season_days,
             )
@@ -943,6 +946,7 @@ class Screener:
             notes=notes,
             warnings=list(view.warnings),
             climate_path=section.climate_path,
+            inputs=dict(view.inputs),
         )
 
     def screen_all(self, sections, progress=None) -> ScreenResult:
@@ -1078,7 +1082,8 @@ def section_json(s: SectionScreen) -> dict:
             for i in range(s.annual.year.size)
         ],
         "notes": list(s.notes),
-        "warnings": list(s.warnings),
+        "inputs": dict(s.inputs),
+        "warnings": notices.to_json(s.warnings),
     }
 
 

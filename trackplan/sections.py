@@ -20,6 +20,8 @@ section; every value that is a quantity carries its unit::
     latitude = 47.15                # degrees north (optional: the climate record's)
     longitude = 8.9                 # degrees east
     climate = "climate/ostvale.csv.gz"   # relative to this file
+    # columns = { tmax = "temp_max [degC]", tmin = "temp_min [degC]" }  # CSV as published (trackplan.columns)
+    # tz = "UTC+01:00"              # zone of naive timestamps (default: the file's, else the longitude's)
     radius = "800 m"                # absent for tangent track
     track_azimuth = "35 deg"        # direction of the track axis from north
     misalignment = "20 mm"
@@ -105,7 +107,7 @@ _KNOWN_FIELDS = {
     "track_azimuth", "misalignment", "misalignment_length", "length", "shade",
     "neutral_temperature", "neutral_date", "neutral_basis", "drift_allowance", "gap_limit",
     "tension_stress_limit", "laying_tolerance", "return_period", "stability", "events",
-    "recovery_days", "rail_temperature_method", "loading",
+    "recovery_days", "rail_temperature_method", "loading", "columns", "tz",
 }
 _DEFAULTABLE = _KNOWN_FIELDS - {"name", "location", "chainage", "stability", "events", "neutral_date",
                                 "neutral_temperature", "neutral_basis"}
@@ -177,6 +179,8 @@ class Section:
     loading: str = "freight-22.5t"  # train preset of the stability analysis, or "none"
     events: tuple = ()  # tuple of Event, sorted by date
     neutral_entry_id: int | None = None  # the register entry of the latest neutral (None: from the section file)
+    climate_columns: tuple = ()  # column mapping of the climate record: tuple of trackplan.columns.ColumnMap
+    climate_tz: str | None = None  # zone of the record's naive timestamps (field ``tz``)
 
     @property
     def current_neutral_temperature_C(self) -> float:
@@ -479,7 +483,24 @@ def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
         loading=train,
         stability_overrides=tuple(sorted(overrides)),
         events=events,
+        climate_columns=_climate_columns(f),
+        climate_tz=_climate_tz(f),
     )
+
+
+def _climate_columns(f) -> tuple:
+    from trackplan import columns
+
+    raw = f.raw("columns")
+    return () if raw is None else tuple(columns.parse_table(raw, f.w("columns")).values())
+
+
+def _climate_tz(f) -> str | None:
+    raw = f.raw("tz")
+    if raw is not None and (not isinstance(raw, str) or not raw.strip()):
+        raise InputError("expected a time zone as text: 'UTC', 'UTC-08:00' or an IANA name such as "
+                         "'America/Los_Angeles'", f.w("tz"))
+    return None if raw is None else raw.strip()
 
 
 def load_sections(path: str | Path, today: dt.date | None = None, strict: bool = False,

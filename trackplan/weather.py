@@ -17,7 +17,17 @@ recognised from its first bytes, whatever the file is called):
 ``ghcn-daily-csv``      daily station records in the GHCN-Daily
                         "by_station" CSV layout of the US national climate
                         archive (NOAA NCEI), below
+``ghcn-daily-dly``      GHCN-Daily ``.dly`` fixed width
+                        (:mod:`trackplan.readers_fixed`)
+``isd-lite``            hourly ISD-Lite fixed width (:mod:`trackplan.readers_fixed`)
+``cf-netcdf``           a point series from CF-convention NetCDF
+                        (:mod:`trackplan.readers_cf`)
 ======================  ===================================================
+
+Any CSV as published is read with a column mapping (:mod:`trackplan.columns`):
+which column holds which quantity, in what unit. Every record passes the
+quality checks of :mod:`trackplan.quality`; warnings are
+:class:`trackplan.notices.Notice` objects (text with a stable code).
 
 Canonical columns
 -----------------
@@ -115,8 +125,11 @@ Our own CSV (``trackplan-csv``)
   ``America/Chicago``), ``wind_height`` (with a unit, default 10 m),
   ``irradiance_timing`` (``instant``, ``hour-ending``, ``hour-beginning``).
   Other keys are kept in ``meta["extra"]``.
-* The header: the first column ``time`` (hourly or finer) or ``date``
-  (daily); every quantity column carries its unit in brackets. Quantities
+* The header: a timestamp column (``time``, ``date``, ``datetime``... or
+  mapped); the time step comes from the timestamps (daily when every
+  timestamp is at midnight a day or more apart), never from the column's
+  name. Every quantity column carries its unit in brackets, or a mapping
+  gives it. Quantities
   (aliases in :data:`CSV_QUANTITIES`): ``air_temperature``, ``ghi``, ``dni``,
   ``dhi``, ``wind_speed``, ``relative_humidity``, ``cloud_fraction``;
   daily ``tmax``, ``tmin``, ``sunshine_fraction``, ``cloud_fraction``.
@@ -130,8 +143,10 @@ Our own CSV (``trackplan-csv``)
   daylight saving time is never applied: write offsets with each timestamp,
   ``2020-07-01T14:00-05:00``, if the clock followed it). With offsets they are
   converted to the standard offset (the stated zone's, else the smallest
-  offset seen). Without a stated zone, naive timestamps are read in the
-  nominal offset of the longitude (``round(lon/15)`` h), or UTC, with a warning.
+  offset seen). A zone given for the record (``tz`` argument: ``--tz`` or
+  the section's ``tz``) replaces the file's. Without any zone, naive
+  timestamps are read in the nominal offset of the site's longitude, else the
+  file's (``round(lon/15)`` h), else UTC, with a warning.
 * Empty cells, ``NA`` and ``NaN`` are missing values.
 
 Daily station records (``ghcn-daily-csv``)
@@ -190,7 +205,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from trackplan import units
+from trackplan import columns, notices, units
 from trackplan.errors import InputError
 
 #: Year that typical-year files (TMY3, EPW) are re-labelled to (not a leap year).
@@ -280,10 +295,7 @@ CSV_QUANTITIES: dict[str, _Quantity] = {
 _FRACTION_UNITS = {"1": 1.0, "fraction": 1.0, "-": 1.0, "%": 0.01, "percent": 0.01, "pct": 0.01,
                    "okta": 1 / 8, "oktas": 1 / 8, "tenths": 0.1}
 
-_TIME_NAMES = {"time", "timestamp", "datetime", "date_time"}
-_DATE_NAMES = {"date", "day"}
 
-_HEADER_RE = re.compile(r"^\s*([^\[\]]*?)\s*\[(.*)\]\s*$")
 _META_RE = re.compile(r"^\s*#\s*([A-Za-z_][\w \-]*?)\s*[:=]\s*(.*?)\s*$")
 _OFFSET_RE = re.compile(r"^(?:UTC|GMT)?\s*([+-])\s*(\d{1,2})(?::?(\d{2}))?$", re.IGNORECASE)
 _TS_OFFSET_RE = re.compile(r"(?:Z|[+-]\d{2}:?\d{2})$")
@@ -300,6 +312,10 @@ class _Ctx:
     label: str
     path: str
     warnings: list[str] = field(default_factory=list)
+    columns: dict | None = None  # column mapping (trackplan.columns), CSV records
+    tz: str | None = None  # zone for naive timestamps, from the command line or section file
+    site_lon: float | None = None  # the site's longitude [deg], for the zone when nothing else says
+    site_lat: float | None = None  # the site's latitude [deg], for the nearest cell of a gridded file
 
     def at(self, line: int | None = None, column: str | None = None) -> str:
         s = self.label
@@ -309,8 +325,9 @@ class _Ctx:
             s += f" column {column}"
         return s
 
-    def warn(self, text: str, line: int | None = None, column: str | None = None) -> None:
-        self.warnings.append(f"{self.at(line, column)}: {text}")
+    def warn(self, text: str, line: int | None = None, column: str | None = None, code: str | None = None) -> None:
+        t = f"{self.at(line, column)}: {text}"
+        self.warnings.append(notices.Notice(t, code or notices.classify(text), self.at(line, column)))
 
 
 def _read_text(path: Path, ctx: _Ctx) -> str:
@@ -368,7 +385,7 @@ def _readers():
     }
 
 
-SOURCE_FORMATS = ("trackplan-csv", "tmy3", "epw", "ghcn-daily-csv")
+SOURCE_FORMATS = ("trackplan-csv", "tmy3", "epw", "ghcn-daily-csv", "ghcn-daily-dly", "isd-lite", "cf-netcdf")
 
 
 #: Sample climates shipped as package data: key -> file name (synthetic, fictional stations;
@@ -397,7 +414,8 @@ def sample_records() -> dict[str, Path]:
     return {k: Path(str(base / name)) for k, name in SAMPLE_FILES.items()}
 
 
-def read_record(path, *, where: str | None = None) -> tuple[pd.DataFrame, dict]:
+def read_record(path, *, where: str | None = None, columns: dict | None = None, tz: str | None = None,
+                site: tuple | None = None) -> tuple[pd.DataFrame, dict]:
     """Read a weather record into canonical columns (SI) and metadata.
 
     Parameters
@@ -407,6 +425,14 @@ def read_record(path, *, where: str | None = None) -> tuple[pd.DataFrame, dict]:
         GHCN-Daily by_station CSV (see the module documentation).
     where : str, optional
         How to name the file in messages (default: the path as given).
+    columns : dict, optional
+        Column mapping of a CSV record (:func:`trackplan.columns.parse_options`).
+    tz : str, optional
+        Zone of naive timestamps (``UTC``, ``UTC-08:00``, an IANA name).
+    site : (float or None, float or None), optional
+        The site's latitude and longitude [deg]: the longitude gives the zone
+        of naive timestamps when nothing else does; a gridded file is read at
+        the cell nearest the site.
 
     Returns
     -------
@@ -427,7 +453,12 @@ def read_record(path, *, where: str | None = None) -> tuple[pd.DataFrame, dict]:
         What cannot be used, naming the file and line or column.
     """
     p = Path(path)
-    ctx = _Ctx(label=where or str(path), path=str(p))
+    lat, lon = site if site is not None else (None, None)
+    ctx = _Ctx(label=where or str(path), path=str(p), columns=columns, tz=tz, site_lon=lon, site_lat=lat)
+    from trackplan import quality, readers_cf, readers_fixed
+
+    if readers_cf.is_netcdf(p):
+        return quality.finish_record(*readers_cf.read_cf(p, ctx), ctx)
     text = _read_text(p, ctx)
     if not text.strip():
         raise InputError(
@@ -435,12 +466,14 @@ def read_record(path, *, where: str | None = None) -> tuple[pd.DataFrame, dict]:
             "'time,air_temperature [degC]', TMY3, EPW or GHCN-Daily CSV)",
             ctx.label,
         )
-    fmt = _sniff(text)
-    data, meta = _readers()[fmt](text, ctx)
+    fmt = readers_fixed.sniff(text) or _sniff(text)
+    if columns and fmt != "trackplan-csv":
+        raise InputError(f"a column mapping applies to CSV records; this is a {fmt} file, whose columns its "
+                         "format defines", next(iter(columns.values())).where)
+    data, meta = {**_readers(), **readers_fixed.READERS}[fmt](text, ctx)
     meta["source_format"] = fmt
     meta["path"] = str(p)
-    meta["warnings"] = ctx.warnings
-    return data, meta
+    return quality.finish_record(data, meta, ctx)
 
 
 def _base_meta() -> dict:
@@ -600,67 +633,16 @@ def _read_trackplan_csv(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
     _parse_meta_lines(meta_lines, meta, ctx)
 
     names = [h.strip() for h in header.split(",")]
-    first = names[0].strip().lower()
-    if first in _TIME_NAMES:
-        step_kind = "hourly"
-    elif first in _DATE_NAMES:
-        step_kind = "daily"
-    else:
-        raise InputError(
-            f"first column is {names[0]!r}; it must be 'time' (hourly or finer, ISO 8601 "
-            "timestamps) or 'date' (daily records)",
-            ctx.at(header_line, "1"),
-        )
-    # quantity columns
-    used: dict[str, tuple[str, _Quantity, float, float, str]] = {}  # header -> (col, q, f, o, unit)
-    for k, h in enumerate(names[1:], start=2):
-        colwhere = ctx.at(header_line, f"{k} {h!r}")
-        m = _HEADER_RE.match(h)
-        qname = (m.group(1) if m else h).strip().lower().replace(" ", "_").replace("-", "_")
-        q = CSV_QUANTITIES.get(qname)
-        if q is None:
-            ctx.warn(
-                f"column {h!r} is not a quantity trackplan reads; ignored (read: "
-                + ", ".join(sorted({n for n in ("air_temperature", "ghi", "dni", "dhi", "wind_speed",
-                                                  "relative_humidity", "cloud_fraction", "tmax", "tmin",
-                                                  "sunshine_fraction")}))
-                + ")",
-                header_line,
-                str(k),
-            )
-            continue
-        if not m or not m.group(2).strip():
-            raise InputError(
-                f"column {h!r} has no unit; write the unit in brackets, e.g. '{qname} [{_unit_example(q)}]'",
-                colwhere,
-            )
-        unit = m.group(2).strip()
-        if q.step not in ("any", step_kind):
-            raise InputError(
-                f"column {h!r} belongs in a {q.step} record, but the first column "
-                f"{names[0]!r} makes this a {step_kind} record "
-                "('time' for hourly columns such as air_temperature, 'date' for tmax/tmin)",
-                colwhere,
-            )
-        if q.column in [v[0] for v in used.values()]:
-            raise InputError(f"a second column for {q.column}; give each quantity once", colwhere)
-        f, o = _unit_factor(unit, q, colwhere)
-        used[h] = (q.column, q, f, o, unit)
-    cols = [v[0] for v in used.values()]
-    need = ("air_temperature_C",) if step_kind == "hourly" else ("tmax_C", "tmin_C")
-    missing = [c for c in need if c not in cols]
-    if missing:
-        wanted = "air_temperature [degC]" if step_kind == "hourly" else "tmax [degC] and tmin [degC]"
-        raise InputError(f"no column for {', '.join(missing)}; a {step_kind} record needs {wanted}",
-                         ctx.at(header_line))
+    tname, cand, ignored = columns.csv_plan(names, ctx.columns, CSV_QUANTITIES, ctx.at(header_line))
+    used = {h: (q.column, q, *_unit_factor(u, q, w), u) for h, (q, u, w, _) in cand.items()}
 
     # the data, vectorised
-    dtypes = {names[0]: str}
+    dtypes = {tname: str}
     dtypes.update({h: "float64" for h in used})
     read_kw = dict(
         skiprows=header_line - 1,
         header=0,
-        usecols=[names[0], *used],
+        usecols=[tname, *used],
         skip_blank_lines=False,
         skipinitialspace=True,
     )
@@ -674,24 +656,26 @@ def _read_trackplan_csv(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
         raise InputError(f"malformed CSV ({exc})", ctx.label) from None
     # drop blank lines (all empty), remember file line of each row
     lines = np.arange(len(raw)) + header_line + 1
-    blank = raw[names[0]].isna().to_numpy() & raw[list(used)].isna().all(axis=1).to_numpy()
+    blank = raw[tname].isna().to_numpy() & raw[list(used)].isna().all(axis=1).to_numpy()
     if blank.any():
         raw = raw.loc[~blank]
         lines = lines[~blank]
     if len(raw) == 0:
         raise InputError("header but no data rows", ctx.at(header_line))
-    tcol = raw[names[0]]
+    tcol = raw[tname]
     bad_t = tcol.isna().to_numpy()
     if bad_t.any():
         i = int(np.argmax(bad_t))
-        raise InputError(f"empty {names[0]!r} cell; every row needs a timestamp", ctx.at(int(lines[i]), "1"))
+        raise InputError(f"empty {tname!r} cell; every row needs a timestamp", ctx.at(int(lines[i]), "1"))
 
+    tz_text, tz_where = meta.pop("_tz_text", (None, None))
+    tcol, step_kind = columns.step_of(tcol, lines, ctx)
+    used = columns.csv_keep(used, cand, ignored, names, step_kind, ctx, ctx.at(header_line))
     data = pd.DataFrame(index=pd.RangeIndex(len(raw)))
     for h, (col, q, f, o, unit) in used.items():
         data[col] = raw[h].to_numpy(dtype=float) * f + o
         meta["units_in_file"][col] = unit
-
-    tz_text, tz_where = meta.pop("_tz_text", (None, None))
+    tz_text, tz_where = columns.zone_text(tz_text, tz_where, ctx, step_kind)
     if step_kind == "hourly":
         index = _parse_times(tcol, tz_text, tz_where, meta, lines, ctx)
     else:
@@ -709,11 +693,6 @@ def _read_trackplan_csv(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
     _check_values(data, meta, lines, used, ctx)
     data = _finish(data, meta, ctx, step_kind)
     return data, meta
-
-
-def _unit_example(q: _Quantity) -> str:
-    return {"temperature": "degC", "irradiance": "W/m**2", "speed": "m/s", "percent": "%",
-            "fraction": "1"}[q.kind]
 
 
 def _unit_factor(unit: str, q: _Quantity, where: str) -> tuple[float, float]:
@@ -1113,6 +1092,8 @@ def _finish(data: pd.DataFrame, meta: dict, ctx: _Ctx, step_kind: str) -> pd.Dat
                      if step_kind == "hourly" else f"column {col}: {nm} missing value(s)")
     _years(data, main_miss, meta, ctx, step_s)
     if step_kind == "hourly":
+        from trackplan.quality import _check_solar_timing
+
         _check_solar_timing(data, meta, ctx)
     return data
 
@@ -1148,50 +1129,6 @@ def _years(data: pd.DataFrame, main_miss: np.ndarray, meta: dict, ctx: _Ctx, ste
         ctx.warn(
             "incomplete year(s), left out of the complete years: "
             + ", ".join(f"{y} ({cov[y] * 100:.0f} %)" for y in partial)
-        )
-
-
-def _equation_of_time_min(doy: np.ndarray) -> np.ndarray:
-    """Equation of time [min] (Spencer 1971, via Iqbal 1983)."""
-    g = 2 * np.pi * (doy - 1) / 365.0
-    return 229.18 * (0.000075 + 0.001868 * np.cos(g) - 0.032077 * np.sin(g)
-                     - 0.014615 * np.cos(2 * g) - 0.040849 * np.sin(2 * g))
-
-
-def _check_solar_timing(data: pd.DataFrame, meta: dict, ctx: _Ctx) -> None:
-    """Warn when irradiance does not peak near solar noon (time zone, longitude, DST)."""
-    lon, off = meta.get("longitude_deg"), meta.get("utc_offset_h")
-    if "ghi_W_m2" not in data or lon is None or off is None:
-        return
-    g = data["ghi_W_m2"].to_numpy()
-    ok = ~np.isnan(g) & (g > 0)
-    if ok.sum() < 24 * 5:
-        return
-    idx = data.index
-    hour = (idx.hour + idx.minute / 60.0).to_numpy() + meta.get("solar_position_shift_min", 0.0) / 60.0
-    month = idx.month.to_numpy()
-    w = np.where(ok, g, 0.0)
-    sw = np.bincount(month - 1, weights=w, minlength=12)
-    shw = np.bincount(month - 1, weights=w * hour, minlength=12)
-    have = sw > 0
-    centre = np.where(have, shw / np.where(have, sw, 1.0), np.nan)
-    mid_doy = np.array([15, 46, 74, 105, 135, 166, 196, 227, 258, 288, 319, 349])
-    noon = 12.0 - _equation_of_time_min(mid_doy) / 60.0 - (lon - 15.0 * off) / 15.0
-    diff = (centre - noon)[have]
-    if len(diff) == 0:
-        return
-    med = float(np.median(diff))
-    if abs(med) > 1.0:
-        ctx.warn(
-            f"irradiance is centred {med:+.1f} h from solar noon (longitude {lon:g}, {meta.get('tz')}); "
-            "check the time zone, the sign of the longitude (east positive) and the timestamp convention"
-        )
-    elif have.sum() >= 10 and float(diff.max() - diff.min()) > 0.7:
-        months = [int(i) + 1 for i, d in zip(np.flatnonzero(have), diff) if d - diff.min() > 0.5]
-        ctx.warn(
-            f"irradiance peaks about {float(diff.max() - diff.min()):.1f} h later in months {months} than in "
-            "the others; the clock may follow daylight saving time (timestamps must be standard time or "
-            "carry their offset)"
         )
 
 

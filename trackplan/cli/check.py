@@ -10,10 +10,12 @@ import typer
 from rich.markup import escape
 from rich.table import Table
 
-from trackplan import CAUTION, units
-from trackplan.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, print_caution
+from trackplan import CAUTION, notices, units
+from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
+                                  command, console, emit_json, print_caution)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
-                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, report_problems)
+                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, print_records,
+                                   report_problems)
 
 _STYLE = {"act": "bold red", "watch": "yellow", "ok": "green"}
 
@@ -39,7 +41,8 @@ def check_json(a) -> dict:
         "pull_apart_gap_mm": c.pull_apart_gap_m * 1e3,
         "target_neutral_temperature_C": a.target.target_neutral_temperature_C,
         "response": a.stability.response,
-        "warnings": a.climate.warnings,
+        "inputs": {"tz": a.climate.tz, "time_step": a.climate.time_step},
+        "warnings": notices.to_json(a.climate.warnings),
     }
 
 
@@ -107,6 +110,9 @@ def check_cmd(
     return_period: Optional[float] = RETURN_PERIOD_OPTION,
     distribution: str = DISTRIBUTION_OPTION,
     priority: str = PRIORITY_OPTION,
+    column: Optional[list[str]] = COLUMN_OPTION,
+    tz: Optional[str] = TZ_OPTION,
+    allow_short: bool = ALLOW_SHORT_OPTION,
     strict: bool = STRICT_OPTION,
     register: Optional[Path] = REGISTER_OPTION,
     system: UnitSystem = UNITS_OPTION,
@@ -128,7 +134,7 @@ def check_cmd(
     from trackplan.check import rank_key
 
     results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution, register,
-                                           priority)
+                                           priority, column=column, tz=tz, allow_short=allow_short)
     results = sorted(results, key=lambda a: rank_key(a.check))
     written = write_check_outputs(out, results, sections_file, system.value) if out is not None else []
     if as_json:
@@ -136,6 +142,8 @@ def check_cmd(
                    "files": [str(p) for p in written], "caution": CAUTION})
     else:
         print_checks(results, system.value)
+        print_records([(a.section.climate_path.name, a.climate.time_step, a.climate.tz, a.climate.warnings)
+                       for a in results])
         if register is not None:
             console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
                           highlight=False)

@@ -58,6 +58,16 @@ UNITS_OPTION = typer.Option(
     UnitSystem.si, "--units", help="Units for printing and for bare numbers: si (degC, m, kN, MPa) or us (degF, ft, kip, ksi)."
 )
 JSON_OPTION = typer.Option(False, "--json", help="Print one JSON object (SI units, unit in every key) and nothing else.")
+COLUMN_OPTION = typer.Option(
+    None, "--column", help="Map a column of a CSV record, repeatable: QUANTITY=\"COLUMN [UNIT]\", e.g. "
+    "--column \"tmax=temp_max [degC]\" --column \"tmin=temp_min [degC]\" (quantities: time, air_temperature, "
+    "tmax, tmin, ghi, dni, dhi, wind_speed, relative_humidity, cloud_fraction, sunshine_fraction).")
+TZ_OPTION = typer.Option(
+    None, "--tz", help="Zone of the record's timestamps without offset: UTC, UTC-08:00 or an IANA name "
+    "(default: the file's, else the nominal zone of the site's longitude).")
+ALLOW_SHORT_OPTION = typer.Option(
+    False, "--allow-short", help="Fit the return level even when the record is shorter than the minimum for the "
+    "return period (default there: the observed extreme plus an allowance).")
 
 
 def print_error(exc: Exception) -> None:

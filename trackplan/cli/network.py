@@ -39,11 +39,14 @@ def read_sections(path: Path, strict: bool, register: Path | None = None):
 
 
 def load_and_assess(path: Path, strict: bool, return_period: float | None, distribution: str,
-                    register: Path | None = None, priority: str = "heat"):
+                    register: Path | None = None, priority: str = "heat", column: list[str] | None = None,
+                    tz: str | None = None, allow_short: bool = False):
     """Read the section file (and the register, if given) and assess its sections.
 
+    ``column`` (``--column`` texts), ``tz`` and ``allow_short`` override every section's.
     Returns ``(assessments, problems)``; with ``strict`` the first problem is raised.
     """
+    from trackplan import columns
     from trackplan.assess import Assessor
 
     if return_period is not None and not 2 <= return_period <= 1000:
@@ -53,7 +56,7 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
     if priority not in ("heat", "cold"):
         raise InputError(f"unknown priority {priority!r}; accepted: heat, cold", "--priority")
     sf = read_sections(path, strict, register)
-    assessor = Assessor(return_period, distribution, priority)
+    assessor = Assessor(return_period, distribution, priority, columns.parse_options(column), tz, allow_short)
     if progress_enabled() and len(sf.sections) > 3:
         from rich.progress import Progress
 
@@ -67,6 +70,31 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
     if strict and problems:
         raise problems[0]
     return results, problems, assessor
+
+
+#: Warnings about what a record can support, printed once per record under the tables.
+RECORD_CODES = ("smoothed_series", "typical_year", "repeated_years", "short_record")
+
+
+def print_records(rows) -> None:
+    """How each climate record was read, and what it cannot support: ``rows`` of (file name,
+    time step, zone, warnings); record-quality warnings (:data:`RECORD_CODES`) once per record."""
+    from rich.markup import escape
+
+    from trackplan import notices
+    from trackplan.cli.common import console
+
+    rows = list(rows)
+    seen = list(dict.fromkeys((n, step, tz) for n, step, tz, _ in rows))
+    if seen:
+        console.print("Climate records read: " + "; ".join(f"{n} ({step}, zone {tz or 'not stated'})"
+                                                           for n, step, tz in seen), highlight=False)
+    said = set()
+    for _, _, _, ws in rows:
+        for w in map(notices.as_notice, ws):
+            if w.code in RECORD_CODES and str(w) not in said:
+                said.add(str(w))
+                console.print(f"[yellow]Warning ({w.code}):[/] {escape(str(w))}", highlight=False)
 
 
 def report_problems(problems: list[InputError], n_ok: int | None = None) -> None:

@@ -12,7 +12,10 @@ from rich.table import Table
 
 from trackplan import CAUTION, rails, units
 from trackplan.cli.common import (
+    ALLOW_SHORT_OPTION,
+    COLUMN_OPTION,
     JSON_OPTION,
+    TZ_OPTION,
     UNITS_OPTION,
     UnitSystem,
     command,
@@ -62,6 +65,9 @@ def railtemp_cmd(
     return_period: float = typer.Option(50.0, "--return-period", help="Return period of the design values [years], > 1."),
     distribution: str = typer.Option("gumbel", "--distribution", help="Extreme-value distribution: gumbel or gev."),
     out: Optional[Path] = typer.Option(None, "--out", help="Folder for a CSV of rail temperatures and PNG plots."),
+    column: Optional[list[str]] = COLUMN_OPTION,
+    tz: Optional[str] = TZ_OPTION,
+    allow_short: bool = ALLOW_SHORT_OPTION,
     system: UnitSystem = UNITS_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
@@ -97,7 +103,9 @@ def railtemp_cmd(
             "rail_temperature_hourly.csv", "rail_temperature_daily.csv", "annual_extremes.csv",
             "annual_extremes.png", "return_levels.png", "hottest_week.png"])
 
-    df, meta = weather.read_record(file)
+    from trackplan import columns, notices
+
+    df, meta = weather.read_record(file, columns=columns.parse_options(column), tz=tz, site=(lat_v, lon_v))
     lat_v = lat_v if lat_v is not None else meta.get("latitude_deg")
     lon_v = lon_v if lon_v is not None else meta.get("longitude_deg")
     if lat_v is None or lon_v is None:
@@ -114,7 +122,7 @@ def railtemp_cmd(
         daily = railtemp.daily_rail_extremes(df, meta, profile, site, method=name)
     typical = bool(meta.get("typical_year"))
     design = extremes.design_extremes(daily, return_period, distribution, typical_year=typical,
-                                      years=None if typical else meta.get("years"))
+                                      years=None if typical else meta.get("years"), allow_short=allow_short)
     warnings = list(meta.get("warnings") or []) + design.warnings
     station = meta.get("station") or Path(file).name
 
@@ -128,8 +136,10 @@ def railtemp_cmd(
         obj["ci_level"] = design.ci_level
         obj["inputs"] = {"rail": profile.name, "method": name, "latitude_deg": site.latitude_deg,
                          "longitude_deg": site.longitude_deg, "track_azimuth_deg": site.track_azimuth_deg,
-                         "shade_factor": site.shade_factor, "distribution": distribution}
-        obj["warnings"] = list(dict.fromkeys(warnings))
+                         "shade_factor": site.shade_factor, "distribution": distribution,
+                         "tz": meta.get("tz"), "time_step": meta.get("time_step"),
+                         "time_step_s": meta.get("time_step_s"), "allow_short": allow_short}
+        obj["warnings"] = notices.to_json(warnings)
         obj["caution"] = CAUTION
         emit_json(obj)
         return
@@ -139,7 +149,7 @@ def railtemp_cmd(
 def _print(design, station, meta, site, profile, method, warnings, s, out) -> None:
     info = (
         f"[bold]{station}[/]  {site.latitude_deg:.3f}°, {site.longitude_deg:.3f}°  "
-        f"({meta.get('source_format')}, {meta.get('time_step')})\n"
+        f"({meta.get('source_format')}, {meta.get('time_step')}, zone {meta.get('tz') or 'not stated'})\n"
         f"rail {profile.name}, track azimuth {site.track_azimuth_deg:g}°, shade {site.shade_factor:g}, "
         f"method {method}"
     )
@@ -164,8 +174,10 @@ def _print(design, station, meta, site, profile, method, warnings, s, out) -> No
         return f"{units.fmt(c[0], 'temperature', s)} to {units.fmt(c[1], 'temperature', s)}"
 
     basis = design.design_basis
-    label = (f"{design.return_period_years:g}-year return level ({basis})" if basis != "observed"
-             else "observed extreme")
+    label = (f"{design.return_period_years:g}-year return level ({basis})" if basis not in ("observed",
+                                                                                            "observed+allowance")
+             else "observed extreme" if basis == "observed"
+             else f"observed extreme plus allowance for {design.return_period_years:g} years")
     dt = Table(title=f"Design rail temperatures: {label}, {design.years} year(s)")
     dt.add_column("")
     dt.add_column("rail temperature", justify="right")
@@ -256,17 +268,19 @@ def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s) -
         Tobs = 1.0 / (1.0 - pp)
         ax.semilogx(Tobs, conv(obs), "o", color="k", ms=4, label="observed annual " + tail)
         if rl is not None:
-            ax.semilogx(T, conv(rl[col]), color=color, label=f"{design.design_basis} fit")
+            ax.semilogx(T, conv(rl[col]), color=color, label=f"{design.distribution} fit")
             lo, hi = rl[f"{tail}_low_C"].to_numpy(float), rl[f"{tail}_high_C"].to_numpy(float)
             if np.all(np.isfinite(lo)):
                 ax.fill_between(T, conv(lo), conv(hi), color=color, alpha=0.2,
                                 label=f"{design.ci_level:.0%} interval")
         ax.axvline(design.return_period_years, color="grey", lw=0.8, ls=":")
+        ax.semilogx([design.return_period_years], conv(getattr(design, f"design_{tail}_rail_temperature_C")), "D",
+                    color=color, mec="k", ms=6, label=f"design value ({design.design_basis})")
         ax.set_xlabel("return period (years)")
         ax.set_ylabel(f"annual {tail} rail temperature ({lab})")
         ax.grid(alpha=0.3, which="both")
         ax.legend(fontsize=8)
-    fig.suptitle(f"{station}: return levels ({design.design_basis})")
+    fig.suptitle(f"{station}: return levels ({design.distribution} fit; design basis {design.design_basis})")
     reports.save_figure(out_dir / "return_levels.png", fig, inputs)
 
     if hourly is not None and np.isfinite(hourly.to_numpy(float)).any():

@@ -10,9 +10,10 @@ import typer
 from rich.table import Table
 
 from trackplan import CAUTION, units
-from trackplan.cli.common import (JSON_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, err_console,
+from trackplan.cli.common import (COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, err_console,
                                   parse_option, print_caution, progress_enabled)
-from trackplan.cli.network import REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, read_sections, report_problems
+from trackplan.cli.network import (REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, print_records, read_sections,
+                                   report_problems)
 from trackplan.errors import InputError
 
 _LEVEL_STYLE = {"watch": "yellow", "restrict": "bold red", "critical": "bold magenta", "cold": "bold blue"}
@@ -35,14 +36,15 @@ def build_options(date_from, date_to, months, warming, neutral_override, watch_f
                                    neutral_override_C=tn, watch_fraction=watch_fraction).validate()
 
 
-def run_screen(sections_file: Path, options, strict: bool, register: Path | None = None):
+def run_screen(sections_file: Path, options, strict: bool, register: Path | None = None, column=None, tz=None):
     """Read the section file (and the register, if given) and screen its sections; returns the ScreenResult
     (its ``neutral_entries``: section id -> register entry id of the latest neutral, or None)."""
+    from trackplan import columns
     from trackplan.assess import Assessor
     from trackplan.screening import Screener
 
     sf = read_sections(sections_file, strict, register)
-    screener = Screener(Assessor(), options)
+    screener = Screener(Assessor(columns=columns.parse_options(column), tz=tz), options)
     if progress_enabled() and len(sf.sections) > 3:
         from rich.progress import Progress
 
@@ -276,6 +278,8 @@ def screen_cmd(
     neutral_override: Optional[str] = typer.Option(None, "--neutral-override", help="What-if: neutral temperature on every day, e.g. '35 degC' ('after destressing to this'; the drift allowance still applies on the heat side)."),
     watch_fraction: float = typer.Option(0.8, "--watch-fraction", help="'watch' from this fraction of the allowable rise (default 0.8, as in check)."),
     out: Optional[Path] = typer.Option(None, "--out", help="Folder for flagged_days.csv, annual_counts.csv, screen_summary.csv, flagged_timeline.png and annual_counts.png."),
+    column: Optional[list[str]] = COLUMN_OPTION,
+    tz: Optional[str] = TZ_OPTION,
     strict: bool = STRICT_OPTION,
     register: Optional[Path] = REGISTER_OPTION,
     system: UnitSystem = UNITS_OPTION,
@@ -302,7 +306,7 @@ def screen_cmd(
     from trackplan import screening
 
     options = build_options(date_from, date_to, months, warming, neutral_override, watch_fraction, system.value)
-    result = run_screen(sections_file, options, strict, register)
+    result = run_screen(sections_file, options, strict, register, column, tz)
     written = write_outputs(out, result, sections_file, system.value) if out is not None else []
     if as_json:
         emit_json({
@@ -317,6 +321,8 @@ def screen_cmd(
     else:
         if result.sections:
             print_summary(result, system.value)
+            print_records([(r.climate_path.name, r.inputs.get('time_step'), r.inputs.get('tz'), r.warnings)
+                           for r in result.sections])
         if register is not None:
             console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
                           highlight=False)

@@ -8,10 +8,12 @@ from typing import Optional
 import typer
 from rich.table import Table
 
-from trackplan import CAUTION, units
-from trackplan.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, print_caution
+from trackplan import CAUTION, notices, units
+from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
+                                  command, console, emit_json, print_caution)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
-                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, report_problems)
+                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, print_records,
+                                   report_problems)
 
 
 def target_json(a) -> dict:
@@ -45,7 +47,8 @@ def target_json(a) -> dict:
             {"name": r.name, "neutral_C": list(r.neutral_C) if r.neutral_C else None, "note": r.note, "source": r.source}
             for r in a.practice
         ],
-        "warnings": a.climate.warnings,
+        "inputs": {"tz": a.climate.tz, "time_step": a.climate.time_step},
+        "warnings": notices.to_json(a.climate.warnings),
     }
 
 
@@ -97,6 +100,9 @@ def target_cmd(
     return_period: Optional[float] = RETURN_PERIOD_OPTION,
     distribution: str = DISTRIBUTION_OPTION,
     priority: str = PRIORITY_OPTION,
+    column: Optional[list[str]] = COLUMN_OPTION,
+    tz: Optional[str] = TZ_OPTION,
+    allow_short: bool = ALLOW_SHORT_OPTION,
     strict: bool = STRICT_OPTION,
     register: Optional[Path] = REGISTER_OPTION,
     system: UnitSystem = UNITS_OPTION,
@@ -114,12 +120,14 @@ def target_cmd(
     Example: trackplan target examples/network.toml --units us
     """
     results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution, register,
-                                           priority)
+                                           priority, column=column, tz=tz, allow_short=allow_short)
     if as_json:
         emit_json({"sections": [target_json(a) for a in results], "problems": [str(p) for p in problems],
                    "caution": CAUTION})
     else:
         print_targets(results, system.value)
+        print_records([(a.section.climate_path.name, a.climate.time_step, a.climate.tz, a.climate.warnings)
+                       for a in results])
         if register is not None:
             console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
                           highlight=False)
