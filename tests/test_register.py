@@ -67,7 +67,7 @@ def test_log_correction_and_latest_neutral(reg):
     assert reg.history("KP-101").latest_neutral.id == m
     # a correction replaces the corrected entry; the corrected one stays in the history
     c = reg.log(R.NewEntry("KP-101", "measured", D(2024, 5, 1), "B. Crew", neutral_temperature_C=32.0,
-                           uncertainty_K=2.0, method="rail uplift", corrects=m, note="transcription slip"))
+                           uncertainty_K=2.0, method="rail uplift", corrects=m, note="typing slip"))
     h = reg.history("KP-101")
     assert h.latest_neutral.id == c and h.latest_neutral.neutral_temperature_C == 32.0
     assert [e.id for e in h.entries if e.corrected_by == c] == [m]
