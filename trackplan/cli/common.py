@@ -37,14 +37,25 @@ app = typer.Typer(
     context_settings={"help_option_names": ["-h", "--help"]},
 )
 
-# Piped output (files, scripts) gets a fixed width wide enough for the tables.
 @app.callback()
 def _group() -> None:
     """Thermal stress planning for continuous welded rail (see the commands below)."""
 
 
-console = Console(width=None if sys.stdout.isatty() else 120)
-err_console = Console(stderr=True, width=None if sys.stderr.isatty() else 120)
+#: Width of piped output (files, scripts) when COLUMNS is not set; the tables are
+#: designed to fit it.
+PIPED_WIDTH = 100
+
+
+def _width(stream) -> int | None:
+    """None (the terminal's width, or COLUMNS when set: rich reads it) or the piped width."""
+    import os
+
+    return None if stream.isatty() or os.environ.get("COLUMNS", "").strip().isdigit() else PIPED_WIDTH
+
+
+console = Console(width=_width(sys.stdout))
+err_console = Console(stderr=True, width=_width(sys.stderr))
 
 
 class UnitSystem(str, Enum):

@@ -15,6 +15,7 @@ from typing import Optional
 
 import typer
 from rich.table import Table
+from rich.text import Text
 
 from trackplan import CAUTION, destressing, rails, units
 from trackplan.cli.common import (
@@ -257,19 +258,22 @@ def destress_cmd(
                   f"alpha = {units.fmt(st.alpha_per_K, 'expansion', s, 8)}"),
         ("Mode", MODE_LABEL[plan.mode]),
         ("Pull", PULL_LABEL[plan.pull] + (f", {len(plan.pulled_lengths_m)} × {units.fmt(plan.pulled_lengths_m[0], 'length', s, 1)}"
-                                          if plan.pull == "centre" else "")),
-        ("String length between fixed points", f"{echo_L} = {units.fmt(plan.length_m, 'length', s, 1)}"),
-        ("Rail temperature (measured)", f"{echo_tr} = {units.fmt(plan.rail_temperature_C, 'temperature', s)}"),
-        ("Target neutral temperature", (f"{echo_tt} = " if echo_tt else "original, ") + units.fmt(plan.target_neutral_C, "temperature", s)),
+                                          if plan.pull == "centre" else "")
+         + (f" (freed rail {units.fmt(plan.freed_length_m / len(plan.pulled_lengths_m), 'length', s, 2)} and "
+            f"{'half ' if plan.pull == 'centre' else ''}the closure rail, stretched together)"
+            if plan.freed_length_m is not None else "")),
+        ("String length between fixed points", _given(echo_L, plan.length_m, "length", s, 1)),
+        ("Rail temperature (measured)", _given(echo_tr, plan.rail_temperature_C, "temperature", s)),
+        ("Target neutral temperature", _given(echo_tt, plan.target_neutral_C, "temperature", s) if echo_tt else "original, " + units.fmt(plan.target_neutral_C, "temperature", s)),
     ]
     if plan.current_neutral_C is not None:
         lab = "Current neutral temperature" if plan.mode == "restrained" else "Neutral before the break"
-        inputs.append((lab, f"{echo_nc} = {units.fmt(plan.current_neutral_C, 'temperature', s)}"))
+        inputs.append((lab, _given(echo_nc, plan.current_neutral_C, "temperature", s)))
     if plan.mode == "repair":
         if plan.removed_length_m is not None:
-            inputs.append(("Removed (between cuts, rail clipped)", f"{echo_rem} = {units.fmt(plan.removed_length_m, 'length', s, 3)}"))
+            inputs.append(("Removed (between cuts, rail clipped)", _given(echo_rem, plan.removed_length_m, "length", s, 3)))
         else:
-            inputs.append(("Opening (freed ends, measured)", f"{echo_opn} = {units.fmt(plan.opening_m, 'length', s, 3)}"))
+            inputs.append(("Opening (freed ends, measured)", _given(echo_opn, plan.opening_m, "length", s, 3)))
     inputs += [
         ("Weld", f"{plan.weld_name}, {_mm(plan.weld_allowance_m, s)} per weld "
                  f"({'gap filled' if plan.weld_allowance_m >= 0 else 'rail consumed'}), {plan.n_welds} weld(s)"),
@@ -297,7 +301,8 @@ def destress_cmd(
     t_fig.add_column("figure")
     t_fig.add_column("value", justify="right")
     for k, v in figures:
-        t_fig.add_row(k, v)
+        style = "bold red" if v.startswith("NO") else ("bold" if _is_key(k) else "")
+        t_fig.add_row(Text(k, style=style), Text(v, style=style))
     console.print(t_fig)
     if plan.stretch_possible or plan.mode == "repair":
         console.print(_marks_table(plan, s))
@@ -324,6 +329,15 @@ def destress_cmd(
     print_caution()
 
 
+def _given(echo: str, value_si: float, kind: str, s: str, digits: int = 1) -> str:
+    """A value as printed, with the text it was given as when that was in another unit."""
+    shown = units.fmt(value_si, kind, s, digits)
+    unit = echo.split(" ", 1)[1] if " " in echo else ""
+    if units.label(unit) == units.label(units.display_unit(kind, s)):
+        return shown
+    return f"{echo} = {shown}"
+
+
 def _out_dir(reports, out: Path, inputs) -> Path:
     """The output folder, created by :func:`trackplan.reports.prepare_out_dir`."""
     return reports.prepare_out_dir(out, inputs)
@@ -345,7 +359,8 @@ def _figures(p: destressing.DestressPlan, s: str) -> list[tuple[str, str]]:
         rows.append(("Free expansion to allow", _mm(p.extension_m, s)))
     else:
         each = f" ({len(p.pulled_lengths_m)} × {_mm(p.extension_m / len(p.pulled_lengths_m), s)})" if len(p.pulled_lengths_m) > 1 else ""
-        rows.append(("Extension (closing of the rail ends)", _mm(p.extension_m, s) + each))
+        what = "closing of the last weld gap" if p.mode == "repair" else "closing of the rail ends"
+        rows.append((f"Extension ({what})", _mm(p.extension_m, s) + each))
     rows.append((f"Weld allowance ({p.n_welds} × {_mm(p.weld_allowance_m, s)})", _mm(p.n_welds * p.weld_allowance_m, s)))
     if p.mode == "repair":
         rows.append(("Opening between the freed rail ends", _mm(p.opening_m, s)))
@@ -362,10 +377,35 @@ def _figures(p: destressing.DestressPlan, s: str) -> list[tuple[str, str]]:
         if p.tensor_capacity_N:
             cap = f" of {units.fmt(p.tensor_capacity_N, 'force', s, 0)} " + ("(within capacity)" if p.within_capacity else "(BEYOND CAPACITY)")
         rows.append(("Tensor pull per rail", units.fmt(p.tensor_force_per_rail_N, "force", s, 1) + cap))
-    rows.append(("Can be done now", "yes" if p.stretch_possible else "NO: rail hotter than target"))
+    rows.append(("Can be done now", verdict_text(p)))
     if p.achieved_neutral_C is not None:
         rows.append(("Neutral reached (what-if)", T(p.achieved_neutral_C)))
     return rows
+
+
+#: Short reasons for the verdict line, one per blocking warning code.
+_BLOCKING_SHORT = {
+    "rail_hotter_than_target": "rail hotter than target",
+    "force_beyond_capacity": "pull beyond tensor capacity",
+    "string_too_long": "pulled length too long for one tensor set",
+    "rail_to_add": "rail must be added (re-plan as a repair)",
+}
+
+
+#: Figures the crew acts on, printed in bold.
+_KEY_FIGURES = ("Length to cut out", "Rail to add", "Closure rail length to cut", "Tensor pull per rail",
+                "Heat the rail to", "Can be done now")
+
+
+def _is_key(label: str) -> bool:
+    return label.startswith(_KEY_FIGURES)
+
+
+def verdict_text(p: destressing.DestressPlan) -> str:
+    """'yes', or 'NO: ...' naming every blocking warning (the warnings below say what to do)."""
+    if p.can_be_done_now:
+        return "yes"
+    return "NO: " + "; ".join(_BLOCKING_SHORT.get(c, c) for c, _ in p.blocking) + " (see the warnings)"
 
 
 def _observed_columns(p: destressing.DestressPlan) -> list[str]:
@@ -409,6 +449,7 @@ td.num { text-align: right; white-space: nowrap; }
 .caution { font-size: 8pt; margin-top: 2mm; }
 .blank { height: 6.5mm; }
 .small { font-size: 8pt; }
+tr.key th, tr.key td { font-weight: bold; font-size: 10.5pt; }
 @media print { body { max-width: none; } .warn { -webkit-print-color-adjust: exact; } }
 """
 
@@ -425,7 +466,8 @@ def crew_sheet_html(p: destressing.DestressPlan, inputs, figures, s: str) -> str
     """
     e = html.escape
     rows_in = "".join(f"<tr><th>{e(k)}</th><td>{e(v)}</td></tr>" for k, v in inputs if v)
-    rows_fig = "".join(f"<tr><th>{e(k)}</th><td class='num'>{e(v)}</td></tr>" for k, v in figures)
+    rows_fig = "".join(
+        f"<tr class='{'key' if _is_key(k) else ''}'><th>{e(k)}</th><td class='num'>{e(v)}</td></tr>" for k, v in figures)
     marks = list(enumerate(p.marks))
     ncol = min(3, -(-len(marks) // _MARK_ROWS))
     per = -(-len(marks) // ncol)
