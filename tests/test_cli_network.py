@@ -27,7 +27,7 @@ def demo_out(tmp_path_factory):
 def test_demo_writes_report_and_figures_are_consistent(demo_out):
     out, stdout = demo_out
     assert "Planning aid only" in stdout and "fictional" in stdout
-    df = pd.read_csv(out / "check.csv")
+    df = pd.read_csv(out / "check.csv", comment="#")
     assert len(df) >= 8
     for sid in df["section"]:
         assert (out / f"force_envelope_{sid}.png").stat().st_size > 5000
@@ -41,15 +41,17 @@ def test_demo_writes_report_and_figures_are_consistent(demo_out):
         p = rails.get_profile(r["rail"])
         st = thermal.default_steel(p.is_north_american)
         cur = r["recorded_neutral_temperature_C"] - r["drift_allowance_K"]
-        assert r["current_neutral_temperature_C"] == pytest.approx(cur)
+        # the CSV keeps temperatures to 0.01 degC, forces to 0.01 kN, gaps to 0.1 mm
+        assert r["current_neutral_temperature_C"] == pytest.approx(cur, abs=0.011)
         rise = r["design_max_rail_temperature_C"] - cur
-        assert r["heat_rise_K"] == pytest.approx(rise)
-        assert r["max_compression_force_per_rail_kN"] == pytest.approx(st.E_Pa * p.area_m2 * st.alpha_per_K * rise / 1e3)
-        assert r["heat_margin_K"] == pytest.approx(r["allowable_rise_K"] - rise)
+        assert r["heat_rise_K"] == pytest.approx(rise, abs=0.02)
+        assert r["max_compression_force_per_rail_kN"] == pytest.approx(st.E_Pa * p.area_m2 * st.alpha_per_K * rise / 1e3,
+                                                                       rel=2e-3)
+        assert r["heat_margin_K"] == pytest.approx(r["allowable_rise_K"] - rise, abs=0.03)
         cold = r["design_min_rail_temperature_C"] - r["recorded_neutral_temperature_C"]
         P = st.E_Pa * p.area_m2 * st.alpha_per_K * cold
         gap = P**2 / (st.E_Pa * p.area_m2 * r["longitudinal_resistance_kN_per_m"] * 1e3)
-        assert r["pull_apart_gap_mm"] == pytest.approx(gap * 1e3, rel=1e-6)
+        assert r["pull_apart_gap_mm"] == pytest.approx(gap * 1e3, rel=2e-3, abs=0.06)
         # verdict rule (trackplan.check): act when the margin is negative or a cold limit is exceeded
         act = r["heat_margin_K"] < 0 or r["pull_apart_gap_mm"] > r["gap_limit_mm"] or -r["max_tension_stress_MPa"] > 160
         assert (r["verdict"] == "act") == act
@@ -65,6 +67,59 @@ def test_demo_writes_report_and_figures_are_consistent(demo_out):
     # worst first
     order = {"act": 0, "watch": 1, "ok": 2}
     assert list(df["verdict"].map(order)) == sorted(df["verdict"].map(order))
+
+
+def test_check_outputs_record_settings_and_actions(demo_out):
+    out, stdout = demo_out
+    text = (out / "check.csv").read_text()
+    meta = [ln for ln in text.splitlines() if ln.startswith("# ")]
+    assert "# command: trackplan check" in meta and any(m.startswith("# return period:") for m in meta)
+    # rounded to the precision of the quantity: no 16-digit floats
+    assert not any(len(tok.split(".")[-1]) > 6 for tok in text.replace('"', ",").split(",") if tok[:1].isdigit())
+    df = pd.read_csv(out / "check.csv", comment="#")
+    for _, r in df.iterrows():  # every act and watch says what to do
+        assert isinstance(r["action"], str) if r["verdict"] != "ok" else r["action"] != r["action"]
+    by = df.set_index("section")
+    assert "destress to a neutral temperature of" in by.loc["DS-302", "action"] and "before" in by.loc["DS-302", "action"]
+    assert "patrol for broken rails" in by.loc["KP-103", "action"]
+    assert "restore and consolidate the ballast" in by.loc["KP-104", "action"]
+    html = (out / "check_summary.html").read_text()
+    assert "Northvale &amp; Estuary Railway (fictional)" in html and "Action:" in html
+    assert "size: A4 landscape" in html and "break-inside: avoid" in html
+    # data warnings name their station and sections
+    assert "<b>Gullhaven Quay</b> (sections" in html
+
+
+def test_check_report_prints_on_few_pages(demo_out, tmp_path):
+    # Rendered by Debian's headless Chromium to PDF; page count by poppler's pdfinfo.
+    import shutil
+    import subprocess
+
+    chromium, pdfinfo = Path("/usr/bin/chromium"), shutil.which("pdfinfo")
+    if not chromium.exists() or pdfinfo is None:
+        pytest.skip("needs /usr/bin/chromium and pdfinfo")
+    out, _ = demo_out
+    pdf = tmp_path / "check.pdf"
+    subprocess.run([str(chromium), "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                    "--disable-component-update", "--disable-sync", "--no-first-run",
+                    f"--user-data-dir={tmp_path / 'profile'}", "--no-pdf-header-footer", f"--print-to-pdf={pdf}",
+                    (out / "check_summary.html").as_uri()], capture_output=True, timeout=120, check=False)
+    assert pdf.exists(), "chromium wrote no PDF"
+    info = subprocess.run([pdfinfo, str(pdf)], capture_output=True, text=True, check=True).stdout
+    pages = int(next(ln.split()[-1] for ln in info.splitlines() if ln.startswith("Pages:")))
+    assert 1 <= pages <= 4  # nine sections: one summary page, plots three to a row
+
+
+def test_check_terminal_fits_100_columns_with_actions(run_cli):
+    res = run_cli("check", str(EXAMPLE))
+    lines = res.stdout.splitlines()
+    assert max(len(ln) for ln in lines) <= 100
+    header = "\n".join(lines[:6])
+    assert "allowabl\n" not in header and "allowable" in header
+    assert sum(ln.strip().startswith("action:") for ln in lines) == 6  # three act, three watch
+    _, d = run_cli("check", str(EXAMPLE), "--json", json_out=True)
+    for s in d["sections"]:
+        assert (s["action"] is None) == (s["verdict"] == "ok")
 
 
 def test_target_json(run_cli):

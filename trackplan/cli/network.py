@@ -97,6 +97,17 @@ def print_records(rows) -> None:
                 console.print(f"[yellow]Warning ({w.code}):[/] {escape(str(w))}", highlight=False)
 
 
+def network_name(path: Path) -> str | None:
+    """The ``[network] name`` of a section file, or None (the file was read before)."""
+    import tomllib
+
+    try:
+        name = tomllib.loads(Path(path).read_text(encoding="utf-8")).get("network", {}).get("name")
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError, AttributeError):
+        return None
+    return name if isinstance(name, str) and name.strip() else None
+
+
 def report_problems(problems: list[InputError], n_ok: int | None = None) -> None:
     """Print the bad sections on stderr: identical messages once, with how many sections
     share them (a wrong --from/--to would otherwise repeat for every section).
