@@ -19,7 +19,8 @@ GREENSBORO = Path(__import__("pvlib").__file__).parent / "data" / "723170TYA.CSV
 JSON_KEYS = {"station", "years", "design_basis", "return_period_years", "design_max_rail_temperature_C",
              "design_min_rail_temperature_C", "max_air_temperature_C", "min_air_temperature_C", "annual",
              "warnings", "caution", "design_max_rail_temperature_ci_C", "design_min_rail_temperature_ci_C",
-             "ci_level", "inputs"}
+             "ci_level", "inputs", "design_max_basis", "design_min_basis", "max_return_level_C",
+             "min_return_level_C"}
 ANNUAL_KEYS = {"year", "max_rail_temperature_C", "min_rail_temperature_C", "max_air_temperature_C",
                "min_air_temperature_C"}
 
@@ -115,7 +116,9 @@ def test_terminal_output_units_and_out_files(small_hourly, tmp_path):
     for name in ("rail_temperature_hourly.csv", "rail_temperature_daily.csv", "annual_extremes.csv",
                  "annual_extremes.png", "return_levels.png", "hottest_week.png"):
         assert (out / name).stat().st_size > 0, name
-    hourly = pd.read_csv(out / "rail_temperature_hourly.csv")
+    hourly = pd.read_csv(out / "rail_temperature_hourly.csv", comment="#")
+    head = (out / "rail_temperature_hourly.csv").read_text().splitlines()[:12]
+    assert "# command: trackplan railtemp" in head and any(h.startswith("# track azimuth:") for h in head)
     assert list(hourly.columns) == ["time", "air_temperature_C", "rail_temperature_C"]
     assert hourly.time.iloc[0] == "2001-01-01T00:00+01:00"
     assert len(hourly) == 3 * 8760 + 8784  # 2004 is a leap year

@@ -159,6 +159,12 @@ def parse_option(text: str | None, kind: str, option: str, system: UnitSystem | 
     return parsed.value, parsed.echo
 
 
+def phase(text: str) -> None:
+    """Say on an interactive terminal which phase of a long command is running (stderr)."""
+    if progress_enabled():
+        err_console.print(f"[dim]… {text}[/]", highlight=False)
+
+
 def progress_enabled() -> bool:
     """Progress bars only on an interactive terminal, never when piped."""
     return sys.stderr.isatty()
