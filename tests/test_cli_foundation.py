@@ -91,3 +91,36 @@ def test_console_entry_loads_only_the_command_it_runs():
     loaded, heavy = json.loads(res.stderr.strip().splitlines()[-1])
     assert "trackplan.cli.force" in loaded and "trackplan.cli.screen" not in loaded
     assert heavy == []  # no matplotlib, pvlib, scipy, pandas or pint on the start-up path
+
+
+def test_version_is_light_and_in_process(run_cli):
+    import subprocess
+    import sys
+
+    code = ("import sys; sys.argv = ['trackplan', '--version']\nfrom trackplan.cli import main\nmain()\n"
+            "print(sorted(m for m in sys.modules if m.startswith('trackplan.cli.') or m in ('typer', 'pandas')))")
+    res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    from trackplan import __version__
+
+    assert res.stdout.splitlines() == [f"trackplan {__version__}", "[]"]
+    r = run_cli("--version")
+    assert r.exit_code == 0 and r.stdout.strip() == f"trackplan {__version__}"
+
+
+def test_units_any_case(run_cli):
+    _, d = run_cli("force", "--rail", "136RE", "--neutral", "95", "--at", "135", "--units", "US", "--json",
+                   json_out=True)
+    assert d["neutral_temperature_C"] == pytest.approx(35.0)
+
+
+@pytest.mark.parametrize("args,needle", [
+    (["force", "--bogus"], "No such option '--bogus'"),
+    (["nosuch"], "No such command 'nosuch'"),
+    (["force", "--units", "metric"], "'metric' is not one of"),
+])
+def test_usage_errors_are_one_line(run_cli, args, needle):
+    res = run_cli(*args)
+    assert res.exit_code == 2
+    lines = [ln for ln in res.output.splitlines() if ln.strip()]
+    assert len(lines) == 1 and lines[0].startswith("error: ") and needle in lines[0] and "--help" in lines[0]
+    assert "╭" not in res.output and "Usage:" not in res.output

@@ -17,12 +17,43 @@ from pathlib import Path
 
 import typer
 from rich.console import Console
+from typer.core import TyperGroup
 
 from trackplan import CAUTION, units
 from trackplan.errors import InputError
 
+class _OneLineErrors(TyperGroup):
+    """The command group, printing click's usage errors (unknown option, bad choice,
+    missing argument) as the tool's own one-line ``error:`` messages, exit code 2."""
+
+    def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
+        if not standalone_mode:
+            return super().main(args=args, prog_name=prog_name, complete_var=complete_var,
+                                standalone_mode=False, **extra)
+        import click
+
+        try:
+            rv = super().main(args=args, prog_name=prog_name, complete_var=complete_var,
+                              standalone_mode=False, **extra)
+        except click.exceptions.NoArgsIsHelpError as exc:
+            sys.exit(exc.exit_code)  # the help was printed when the error was made
+        except click.exceptions.UsageError as exc:
+            ctx = getattr(exc, "ctx", None)
+            path = ctx.command_path if ctx is not None else "trackplan"
+            print_error(InputError(f"{exc.format_message().rstrip('.')} (see `{path} --help`)"))
+            sys.exit(2)
+        except click.ClickException as exc:
+            print_error(InputError(exc.format_message()))
+            sys.exit(exc.exit_code)
+        except click.Abort:
+            err_console.print("Aborted.", highlight=False)
+            sys.exit(1)
+        sys.exit(rv if isinstance(rv, int) else 0)
+
+
 app = typer.Typer(
     name="trackplan",
+    cls=_OneLineErrors,
     help=(
         "Thermal stress planning for continuous welded rail: rail forces at the temperature "
         "extremes, the neutral temperature to install, risk days in a temperature history, "
@@ -37,8 +68,19 @@ app = typer.Typer(
     context_settings={"help_option_names": ["-h", "--help"]},
 )
 
+def _print_version(value: bool) -> None:
+    if value:
+        from trackplan import __version__
+
+        typer.echo(f"trackplan {__version__}")
+        raise typer.Exit(0)
+
+
 @app.callback()
-def _group() -> None:
+def _group(
+    version: bool = typer.Option(False, "--version", is_eager=True, callback=_print_version,
+                                 help="Print the version of trackplan and exit."),
+) -> None:
     """Thermal stress planning for continuous welded rail (see the commands below)."""
 
 
@@ -66,7 +108,7 @@ class UnitSystem(str, Enum):
 
 
 UNITS_OPTION = typer.Option(
-    UnitSystem.si, "--units", help="Units for printing and for bare numbers: si (degC, m, kN, MPa) or us (degF, ft, kip, ksi)."
+    UnitSystem.si, "--units", case_sensitive=False, help="Units for printing and for bare numbers: si (degC, m, kN, MPa) or us (degF, ft, kip, ksi)."
 )
 JSON_OPTION = typer.Option(False, "--json", help="Print one JSON object (SI units, unit in every key) and nothing else.")
 COLUMN_OPTION = typer.Option(
