@@ -217,3 +217,17 @@ def test_output_name_clash_refused_before_writing(run_cli, tmp_path):
     res = run_cli("railtemp", str(rec), "--out", str(tmp_path))
     assert res.exit_code == 2 and "would overwrite an input" in res.output
     assert sorted(p.name for p in tmp_path.iterdir()) == ["rail_temperature_daily.csv"]
+
+
+def test_target_out_writes_csv_and_html(run_cli, tmp_path):
+    res = run_cli("target", str(EXAMPLE), "--out", str(tmp_path / "t"))
+    assert res.exit_code == 0, res.output
+    lines = res.stdout.splitlines()
+    assert max(len(ln) for ln in lines) <= 100
+    text = (tmp_path / "t" / "target.csv").read_text()
+    assert text.startswith("# command: trackplan target\n") and "# distribution: gumbel" in text
+    df = pd.read_csv(tmp_path / "t" / "target.csv", comment="#")
+    assert set(df["section"]) >= {"KP-101", "DS-302"} and "target_neutral_temperature_C" in df
+    page = (tmp_path / "t" / "target_summary.html").read_text()
+    assert "Northvale &amp; Estuary Railway (fictional)" in page and "Caution." in page
+    assert "Would open the window" in page  # the example has sections with an empty window
