@@ -13,8 +13,8 @@ from rich.table import Table
 from trackplan import CAUTION, __version__, units
 from trackplan.cli.common import (COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, err_console,
                                   parse_option, print_caution, progress_enabled)
-from trackplan.cli.network import (REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, print_records, read_sections,
-                                   report_problems)
+from trackplan.cli.network import (REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, print_records, read_records,
+                                   read_sections, report_problems)
 from trackplan.errors import InputError
 from trackplan.screen_report import MIN_TREND_DAYS, heat_total, rate_text, signed, trend_text
 
@@ -53,7 +53,8 @@ def run_screen(sections_file: Path, options, strict: bool, register: Path | None
 
         # no refresh thread (auto_refresh=False): worker processes are forked during the run
         with Progress(console=err_console, transient=True, auto_refresh=False) as bar:
-            task = bar.add_task("screening sections", total=len(sf.sections))
+            read_records(screener.assessor, sf.sections, bar)
+            task = bar.add_task("rail temperatures and risk days", total=len(sf.sections))
             result = screener.screen_all(sf.sections, progress=lambda: (bar.advance(task), bar.refresh()))
     else:
         result = screener.screen_all(sf.sections)
