@@ -163,3 +163,15 @@ def test_no_redundant_echo(run_cli):
     assert "400 m = 400.0 m" not in out and "400.0 m" in out
     assert "1320 ft = 402.3 m" in run_cli("destress", "--rail", "60E1", "--length", "1320 ft", "--rail-temp", "15",
                                           "--target", "27").stdout
+
+
+def test_us_defaults_are_us_practice_values(run_cli):
+    # 1 in thermite gap, 1320 ft longest pull, marks every 100 ft (from memory, common practice),
+    # not the SI defaults converted (0.98 in, 1312 ft)
+    _, d = run_cli("destress", "--rail", "136RE", "--length", "1600", "--rail-temp", "60", "--target", "95",
+                   "--units", "us", "--json", json_out=True)
+    assert d["weld_allowance_mm"] == pytest.approx(25.4) and d["max_pull_length_m"] == pytest.approx(1320 * 0.3048)
+    assert d["mark_spacing_m"] == pytest.approx(30.48)
+    out = run_cli("destress", "--rail", "136RE", "--length", "1600", "--rail-temp", "60", "--target", "95",
+                  "--units", "us").stdout
+    assert "1.00 in per weld" in out and "0.98 in" not in out and "1320 ft" in out and "1312" not in out

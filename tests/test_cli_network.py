@@ -231,3 +231,12 @@ def test_target_out_writes_csv_and_html(run_cli, tmp_path):
     page = (tmp_path / "t" / "target_summary.html").read_text()
     assert "Northvale &amp; Estuary Railway (fictional)" in page and "Caution." in page
     assert "Would open the window" in page  # the example has sections with an empty window
+
+
+def test_check_us_units_reach_warnings_and_actions(run_cli):
+    out = run_cli("check", str(EXAMPLE), "--units", "us").stdout
+    warn = [ln for ln in out.splitlines() if ln.startswith("Data warning")]
+    assert warn and all("degC" not in w and "°C" not in w for w in warn)
+    assert "Data warning (Gullhaven Quay; GQ-" in out  # station and sections named
+    acts = [ln for ln in out.splitlines() if "action:" in ln]
+    assert acts and not any("°C" in a for a in acts)

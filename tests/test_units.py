@@ -101,3 +101,14 @@ def test_short_length_bare_numbers():
     assert units.parse("40", "short_length", "--observed-movement", default_unit=units.default_unit("short_length", "si")) == pytest.approx(0.040)
     assert units.parse("2", "short_length", "x", default_unit=units.default_unit("short_length", "us")) == pytest.approx(0.0508)
     assert units.parse("3 ft", "short_length", "x") == pytest.approx(0.9144)
+
+
+def test_figures_inside_words_follow_the_unit_system():
+    from trackplan.units import text_in
+
+    t = "rail 41.0 degC above the level 40.2 degC; rise +1.5 K; gap 25 mm at 8 kN/m over 400 m; 3 m/s; 60E1"
+    us = text_in(t, "us")
+    # 41.0 degC = 105.8 degF; 1.5 K = 2.7 delta_degF; 25 mm = 0.98 in; 400 m = 1312 ft (exact definitions)
+    assert "105.8 °F" in us and "+2.7 Δ°F" in us and "1.0 in" in us and "1312 ft" in us
+    assert "3 m/s" in us and "60E1" in us and "degC" not in us and " mm" not in us
+    assert text_in(t, "si") == t.replace("degC", "°C")

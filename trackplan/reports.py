@@ -291,16 +291,19 @@ def grouped_warnings(items) -> list[tuple[str, list[str], str]]:
     return [(st, ids, w) for (st, w), ids in seen.items()]
 
 
-def warnings_html(items) -> str:
-    """A 'Data warnings' list naming the station and the sections of each warning."""
+def warnings_html(items, system: str = "si") -> str:
+    """A 'Data warnings' list naming the station and the sections of each warning
+    (figures in ``system``)."""
     import html
 
     e = html.escape
     groups = grouped_warnings(items)
     if not groups:
         return ""
-    lis = "".join(f"<li><b>{e(st)}</b> (section{'s' if len(ids) > 1 else ''} {e(', '.join(ids))}): {e(w)}</li>"
-                  for st, ids, w in groups)
+    from trackplan.units import text_in
+
+    lis = "".join(f"<li><b>{e(st)}</b> (section{'s' if len(ids) > 1 else ''} {e(', '.join(ids))}): "
+                  f"{e(text_in(w, system))}</li>" for st, ids, w in groups)
     return f"<h2>Data warnings</h2><ul>{lis}</ul>"
 
 
@@ -349,7 +352,8 @@ def check_html(assessments, pngs: dict[str, bytes], caution: str, title: str = "
         f"<figure><img alt='force envelope {e(sid)}' src='data:image/png;base64,{base64.b64encode(b).decode()}'>"
         f"</figure>" for sid, b in pngs.items()
     )
-    warn_html = warnings_html((a.climate.station, a.section.id, w) for a in assessments for w in a.climate.warnings)
+    warn_html = warnings_html(((a.climate.station, a.section.id, w) for a in assessments for w in a.climate.warnings),
+                              system)
     u = lambda kind: e(units.label(units.display_unit(kind, system)))
     heading = e(title) + (f": {e(network)}" if network else "")
     empty = "" if assessments else "<p><b>No section could be checked.</b></p>"

@@ -88,7 +88,7 @@ def screen_html(result, pngs: dict[str, bytes], settings, system: str = "si", ne
                    f"</figure>" for name, b in pngs.items())
     heading = "Risk-day screening" + (f": {e(network)}" if network else "")
     settings_html = "; ".join(f"{e(k)}: {e(str(v))}" for k, v in settings if k != "command")
-    warn = warnings_html((r.station, r.id, w) for r in secs for w in r.warnings)
+    warn = warnings_html(((r.station, r.id, w) for r in secs for w in r.warnings), system)
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><title>{heading}</title>
 <style>{SCREEN_CSS}{PRINT_CSS} .plots img{{max-width:100%}} @media print{{.plots figure{{width:100%}}}}</style>

@@ -67,7 +67,8 @@ def target_html(assessments, system: str = "si", network: str | None = None, set
 <th>section</th><th>design max ({tu})</th><th>design min ({tu})</th><th>allowable rise ({du})</th>
 <th>feasible window ({tu})</th><th>target ({tu})</th><th>laying range ({tu})</th><th>cold limit</th>
 <th>reasoning</th></tr></thead><tbody>{''.join(rows)}</tbody></table>"""
-    warn = warnings_html((a.climate.station, a.section.id, w) for a in assessments for w in a.climate.warnings)
+    warn = warnings_html(((a.climate.station, a.section.id, w) for a in assessments for w in a.climate.warnings),
+                         system)
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><title>{heading}</title>
 <style>{SCREEN_CSS}{PRINT_CSS}</style></head><body>

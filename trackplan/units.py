@@ -552,3 +552,38 @@ class Phrase:
 
     def __str__(self) -> str:
         return self.text("si")
+
+
+# --------------------------------------------------------------------------
+# Figures inside words made in SI (warnings and notes of the readers and models)
+# --------------------------------------------------------------------------
+
+#: SI unit as written in a message -> (display kind, SI factor, extra digits in US units).
+_TEXT_UNITS = {
+    "degC": ("temperature", 1.0, 0), "°C": ("temperature", 1.0, 0),
+    "K": ("temperature_difference", 1.0, 0),
+    "mm": ("short_length", 1e-3, 1), "m": ("length", 1.0, 0), "km": ("length", 1e3, 0),
+    "kN": ("force", 1e3, 1), "MPa": ("stress", 1e6, 1), "kN/m": ("force_per_length", 1e3, 0),
+}
+_TEXT_RE = re.compile(r"(?<![\w.])([-+]?\d+(?:\.(\d+))?) ?(degC|°C|K|mm|km|m|kN/m|kN|MPa)(?![\w/²³⁴*])")
+
+
+def text_in(text: str, system: str = "si") -> str:
+    """Words with SI figures (``"rail 41.0 degC, gap 25 mm"``) with every figure in
+    ``system``; unchanged for ``si`` (``degC`` shown as ``°C``).
+
+    For messages made before the unit system was known (readers' and models'
+    warnings and notes); a figure keeps its decimals, one more for the coarser
+    US units of short lengths, forces and stresses.
+    """
+    def sub(m: re.Match) -> str:
+        unit = m.group(3)
+        kind, factor, extra = _TEXT_UNITS[unit]
+        digits = len(m.group(2) or "") + (extra if system == "us" else 0)
+        value = float(m.group(1)) * factor
+        if system == "si":
+            return m.group(0).replace("degC", "°C")
+        sign = "+" if m.group(1).startswith("+") and value >= 0 else ""
+        return sign + fmt(value, kind, system, digits)
+
+    return _TEXT_RE.sub(sub, text)

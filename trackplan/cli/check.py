@@ -14,7 +14,8 @@ from trackplan import CAUTION, __version__, notices, units
 from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
                                   command, console, emit_json, print_caution)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
-                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, network_name, print_records,
+                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, network_name, print_data_warnings,
+                                   print_records,
                                    report_problems)
 
 _STYLE = {"act": "bold red", "watch": "yellow", "ok": "green"}
@@ -95,6 +96,7 @@ def print_checks(results, s: str, wide: bool = False) -> None:
         action = section_action(a)
         if action is not None:
             console.print(f"  [bold]action:[/] {escape(action.text(s))}", highlight=False)
+    print_data_warnings(results, s)
 
 
 def check_settings(return_period, distribution: str, system: str) -> list[tuple[str, str]]:

@@ -62,6 +62,20 @@ MODE_LABEL = {
 }
 PULL_LABEL = {"end": "from one end", "centre": "both halves towards a central cut"}
 
+#: Defaults with --units us, as North American practice writes them (not converted
+#: SI values). All from memory of common practice: confirm them in your railway's
+#: CWR procedure and the weld kit's instructions.
+US_DEFAULTS = {
+    # standard-gap thermite (aluminothermic) kits: a 1 in gap between the rail ends
+    "weld": destressing.WeldAllowance(
+        "aluminothermic", 1.0 * 0.0254, "aluminothermic (thermite) weld, standard 1 in gap",
+        "(from memory) North American practice: standard-gap thermite kits 1 in; confirm with the kit instructions"),
+    # longest length one tensor set pulls: a quarter mile, as commonly written
+    "max_pull_m": 1320.0 * 0.3048,
+    # reference marks every 100 ft
+    "marks_m": 100.0 * 0.3048,
+}
+
 
 def read_job(path: Path) -> dict:
     """Read a destressing job file: a TOML ``[destress]`` table, quantities with units.
@@ -161,11 +175,11 @@ def destress_cmd(
         ) + " (values from memory: confirm them), or a value per weld with its unit: '30 mm' gap, '-35 mm' consumed. "
         "Default aluminothermic."
     ),
-    marks: Optional[str] = typer.Option(None, "--marks", help="Reference mark spacing, e.g. '50 m' (default 50 m)."),
+    marks: Optional[str] = typer.Option(None, "--marks", help="Reference mark spacing, e.g. '50 m' (default 50 m, or 100 ft with --units us)."),
     pull: Optional[str] = typer.Option(None, "--pull", help="end (from one end) or centre (both halves towards a central cut). Default end; centre for repair."),
     tensor_capacity: Optional[str] = typer.Option(None, "--tensor-capacity", help="Tensor capacity per rail, e.g. '600 kN' or '130 kip'."),
     max_pull: Optional[str] = typer.Option(
-        None, "--max-pull", help="Longest length one tensor set pulls (default 400 m, from memory of common practice; set your railway's figure)."
+        None, "--max-pull", help="Longest length one tensor set pulls (default 400 m, or 1320 ft with --units us; from memory of common practice: set your railway's figure)."
     ),
     observed_movement: Optional[str] = typer.Option(
         None, "--observed-movement", help="What-if: movement observed at a mark, e.g. '40 mm' (with --at-mark)."
@@ -219,6 +233,9 @@ def destress_cmd(
     site_name = _opt(site, "site", None, job_data, system)[0]
     weld_text = _opt(weld, "weld", None, job_data, system)[0]
     w = destressing.weld_allowance(weld_text) if weld_text is not None else None
+    if s == "us":  # US practice values as defaults, not converted SI ones
+        w = US_DEFAULTS["weld"] if w is None else w
+        mpl = US_DEFAULTS["max_pull_m"] if mpl is None else mpl
 
     mode_name = _opt(mode, "mode", None, job_data, system)[0]
     if mode_name is None:
@@ -229,6 +246,9 @@ def destress_cmd(
     pull_name = {"center": "centre", "both": "centre", "one-end": "end"}.get(pull_name, pull_name)
     if mode_name != "repair" and (rem is not None or opn is not None):
         raise InputError(f"--removed/--opening belong to repair mode, not {mode_name}", "--mode")
+    if s == "us" and spacing is None and mode_name != "repair" and \
+            US_DEFAULTS["marks_m"] <= L / (2 if pull_name == "centre" else 1):
+        spacing = US_DEFAULTS["marks_m"]
 
     plan = destressing.plan_destressing(
         length_m=L,

@@ -109,6 +109,21 @@ def network_name(path: Path) -> str | None:
     return name if isinstance(name, str) and name.strip() else None
 
 
+def print_data_warnings(assessments, s: str) -> None:
+    """Data warnings once per station, naming it and its sections, figures in ``s``."""
+    from trackplan.cli.common import console
+    from trackplan.reports import grouped_warnings
+    from trackplan.units import text_in
+
+    from trackplan import notices
+
+    # the record-quality warnings are said once per record by print_records
+    items = ((a.climate.station, a.section.id, w) for a in assessments for w in a.climate.warnings
+             if notices.as_notice(w).code not in RECORD_CODES)
+    for station, ids, w in grouped_warnings(items):
+        console.print(f"Data warning ({station}; {', '.join(ids)}): {text_in(w, s)}", highlight=False, markup=False)
+
+
 def read_records(assessor, sections, bar) -> None:
     """Read each distinct climate record once, with its own progress line (the first
     phase of a network run; a record that cannot be read is reported with its section later)."""

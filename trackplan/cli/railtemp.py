@@ -210,7 +210,7 @@ def _print(design, station, meta, site, profile, method, warnings, s, out) -> No
     if warnings:
         console.print("[yellow]Warnings:[/]", highlight=False)
         for w in warnings:
-            console.print(f"  - {w}", highlight=False, markup=False)
+            console.print(f"  - {units.text_in(w, s)}", highlight=False, markup=False)
     if out is not None:
         console.print(f"Files written to {out}", highlight=False)
     print_caution()

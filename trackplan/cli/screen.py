@@ -163,7 +163,8 @@ def print_summary(result, s: str, wide: bool = False) -> None:
     from trackplan.reports import grouped_warnings
 
     for station, ids, w in grouped_warnings((r.station, r.id, w) for r in secs for w in r.warnings):
-        console.print(f"[yellow]Warning[/] ({station}; {', '.join(ids)}): {escape(w)}", highlight=False)
+        console.print(f"[yellow]Warning[/] ({station}; {', '.join(ids)}): {escape(units.text_in(w, s))}",
+                      highlight=False)
     notes = sorted({n for r in secs for n in r.notes if not n.startswith("days before the neutral date")})
     replay = sum(any(n.startswith("days before the neutral date") for n in r.notes) for r in secs)
     o = result.options
@@ -178,7 +179,7 @@ def print_summary(result, s: str, wide: bool = False) -> None:
                       "temperature: a replay of the climate on the section as recorded, not its past.",
                       highlight=False)
     for n in notes:
-        console.print(n, highlight=False)
+        console.print(units.text_in(n, s), highlight=False, markup=False)
 
 
 # --------------------------------------------------------------------------

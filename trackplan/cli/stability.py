@@ -219,9 +219,9 @@ def stability_cmd(
     tbl.add_row("misalignment", f"{units.fmt(inp.misalignment_m, 'short_length', s)} over "
                                 f"{units.fmt(inp.misalignment_length_m, 'length', s)}")
     console.print(tbl)
-    console.print(f"Allowable rise: {result.criterion}.", highlight=False)
+    console.print(f"Allowable rise: {units.text_in(result.criterion, s)}.", highlight=False, markup=False)
     for n in result.notes:
-        console.print(f"[dim]note: {n}[/]", highlight=False)
+        console.print(f"note: {units.text_in(n, s)}", highlight=False, markup=False, style="dim")
     for f in files:
         console.print(f"wrote {f}", highlight=False)
     print_caution()

@@ -12,7 +12,7 @@ from trackplan import CAUTION, notices, units
 from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
                                   command, console, emit_json, print_caution)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
-                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, print_records,
+                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, print_data_warnings, print_records,
                                    report_problems)
 
 
@@ -88,6 +88,7 @@ def print_targets(results, s: str) -> None:
         elif t.narrow:
             console.print(f"[yellow]{a.section.id}[/]: the window is narrower than the laying range; lay within it.",
                           highlight=False)
+    print_data_warnings(results, s)
     if results:
         rules = "; ".join(
             f"{r.name} {units.number(r.neutral_C[0], 'temperature', s, 0)}"
