@@ -124,3 +124,34 @@ def test_usage_errors_are_one_line(run_cli, args, needle):
     lines = [ln for ln in res.output.splitlines() if ln.strip()]
     assert len(lines) == 1 and lines[0].startswith("error: ") and needle in lines[0] and "--help" in lines[0]
     assert "╭" not in res.output and "Usage:" not in res.output
+
+
+@pytest.mark.parametrize("args", [
+    ["force", "--rail", "60E1", "--neutral", "27 degC", "--at", "60 degC", "--at", "-20 degC", "--resistance", "8 kN/m"],
+    ["force", "--rail", "136RE", "--neutral", "95", "--at", "140", "--at", "-10", "--units", "us"],
+    ["profiles"],
+    ["destress", "--rail", "60E1", "--length", "200 m", "--rail-temp", "10", "--current-neutral", "27",
+     "--removed", "4.5 m"],
+])
+def test_terminal_tables_fit_100_columns_without_split_words(run_cli, args):
+    # the piped width is 100 columns (trackplan.cli.common.PIPED_WIDTH) unless COLUMNS says otherwise
+    out = run_cli(*args).stdout
+    lines = out.splitlines()
+    assert max(len(ln) for ln in lines) <= 100
+    assert "…" not in out  # no header or cell cut short
+    if args[0] == "force":  # headers and states whole, not folded into pieces
+        assert "breathing" in out and "compression" in out and "tension" in out
+
+
+def test_columns_is_honoured_when_piped():
+    import os
+    import subprocess
+    import sys
+
+    code = "import sys; sys.argv = ['trackplan', 'profiles']\nfrom trackplan.cli import main\nmain()"
+    env = dict(os.environ, COLUMNS="72")
+    res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=60)
+    assert max(len(ln) for ln in res.stdout.splitlines()) <= 72
+    env.pop("COLUMNS")
+    res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=60)
+    assert 90 <= max(len(ln) for ln in res.stdout.splitlines()) <= 100

@@ -523,6 +523,11 @@ def number(value_si: float | None, kind: str, system: str = "si", digits: int = 
     return f"{v:.{digits}f}"
 
 
+def header_lines(name: str, kind: str, system: str = "si") -> str:
+    """Column header on two lines, the unit below (narrow tables): ``"per rail\n(kN)"``."""
+    return f"{name}\n({label(display_unit(kind, system))})"
+
+
 def header(name: str, kind: str, system: str = "si") -> str:
     """Column header with the display unit, e.g. ``"force per rail (kN)"``
     (parentheses, not brackets, which rich would read as markup)."""

@@ -207,6 +207,17 @@ def phase(text: str) -> None:
         err_console.print(f"[dim]… {text}[/]", highlight=False)
 
 
+def given_text(echo: str, value_si: float, kind: str, system, digits: int = 1) -> str:
+    """A value as printed, with the text it was given as when that was in another unit
+    (``'1320 ft = 402.3 m'``; ``'400.0 m'``, not ``'400 m = 400.0 m'``)."""
+    s = system.value if isinstance(system, Enum) else system
+    shown = units.fmt(value_si, kind, s, digits)
+    unit = echo.split(" ", 1)[1] if " " in echo else ""
+    if units.label(unit) == units.label(units.display_unit(kind, s)):
+        return shown
+    return f"{echo} = {shown}"
+
+
 def progress_enabled() -> bool:
     """Progress bars only on an interactive terminal, never when piped."""
     return sys.stderr.isatty()

@@ -25,6 +25,7 @@ from trackplan.cli.common import (
     command,
     console,
     emit_json,
+    given_text,
     parse_option,
     print_caution,
 )
@@ -349,13 +350,7 @@ def destress_cmd(
     print_caution()
 
 
-def _given(echo: str, value_si: float, kind: str, s: str, digits: int = 1) -> str:
-    """A value as printed, with the text it was given as when that was in another unit."""
-    shown = units.fmt(value_si, kind, s, digits)
-    unit = echo.split(" ", 1)[1] if " " in echo else ""
-    if units.label(unit) == units.label(units.display_unit(kind, s)):
-        return shown
-    return f"{echo} = {shown}"
+_given = given_text
 
 
 def _out_dir(reports, out: Path, inputs) -> Path:
