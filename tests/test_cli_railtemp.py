@@ -177,3 +177,21 @@ def test_record_with_a_missing_year_warns(tmp_path):
     js = json.loads(r.stdout)
     assert 2003 not in [a["year"] for a in js["annual"]]
     assert any("2003" in w for w in (x["message"] for x in js["warnings"]))
+
+
+def test_lat_lon_given_silences_the_missing_coordinates_warning(tmp_path):
+    # a GHCN-Daily by-station file (layout of the GHCN-Daily readme) without ghcnd-stations.txt beside it
+    import datetime as dt
+
+    day = dt.date(2019, 1, 1)
+    rows = []
+    for k in range(3 * 365):
+        d = (day + dt.timedelta(days=k)).strftime("%Y%m%d")
+        rows += [f"XXC00012345,{d},TMAX,{250 + (k % 50)},,,S,", f"XXC00012345,{d},TMIN,{50 + (k % 30)},,,S,"]
+    f = tmp_path / "XXC00012345.csv"
+    f.write_text("\n".join(rows) + "\n")
+    r = _run(f, "--json")
+    assert r.exit_code == 2 and "--lat" in r.output
+    r = _run(f, "--lat", "40", "--lon", "-100", "--json")
+    assert r.exit_code == 0, r.output
+    assert not any("latitude/longitude" in w["message"] for w in json.loads(r.stdout)["warnings"])

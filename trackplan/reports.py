@@ -285,6 +285,8 @@ def grouped_warnings(items) -> list[tuple[str, list[str], str]]:
     ``(station, section id, warning)`` triples, in first-seen order."""
     seen: dict[tuple[str, str], list[str]] = {}
     for station, sid, w in items:
+        if "no latitude/longitude" in w:
+            continue  # a section that was assessed had its coordinates (from the section file)
         ids = seen.setdefault((station, w), [])
         if sid not in ids:
             ids.append(sid)

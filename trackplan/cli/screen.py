@@ -424,6 +424,8 @@ def screen_cmd(
             print_summary(result, system.value, wide)
             print_records([(r.climate_path.name, r.inputs.get('time_step'), r.inputs.get('tz'), r.warnings)
                            for r in result.sections])
+        else:
+            console.print("No section could be screened (see the problems below).", highlight=False)
         if register is not None:
             console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
                           highlight=False)
