@@ -465,6 +465,7 @@ td.num { text-align: right; white-space: nowrap; }
 .blank { height: 6.5mm; }
 .small { font-size: 8pt; }
 tr.key th, tr.key td { font-weight: bold; font-size: 10.5pt; }
+table.fig th { width: 50%; } table.fig td.num { white-space: normal; } tr.no td { color: #b00000; }
 @media print { body { max-width: none; } .warn { -webkit-print-color-adjust: exact; } }
 """
 
@@ -482,7 +483,8 @@ def crew_sheet_html(p: destressing.DestressPlan, inputs, figures, s: str) -> str
     e = html.escape
     rows_in = "".join(f"<tr><th>{e(k)}</th><td>{e(v)}</td></tr>" for k, v in inputs if v)
     rows_fig = "".join(
-        f"<tr class='{'key' if _is_key(k) else ''}'><th>{e(k)}</th><td class='num'>{e(v)}</td></tr>" for k, v in figures)
+        f"<tr class='{'key' if _is_key(k) else ''}{' no' if v.startswith('NO') else ''}'><th>{e(k)}</th>"
+        f"<td class='num'>{e(v)}</td></tr>" for k, v in figures)
     marks = list(enumerate(p.marks))
     ncol = min(3, -(-len(marks) // _MARK_ROWS))
     per = -(-len(marks) // ncol)
@@ -524,7 +526,7 @@ def crew_sheet_html(p: destressing.DestressPlan, inputs, figures, s: str) -> str
 <h1>Destressing crew sheet: {e(MODE_LABEL[p.mode])}</h1>
 <p class="small">Prepared {date.today().isoformat()} with trackplan. Figures in {'SI' if s == 'si' else 'US customary'} units.</p>
 <div class="cols"><div><h2>Inputs</h2><table>{rows_in}</table></div>
-<div><h2>Figures</h2><table>{rows_fig}</table></div></div>
+<div><h2>Figures</h2><table class="fig">{rows_fig}</table></div></div>
 {warn}
 <h2>Reference marks{e(halves)}: distance from the fixed end towards the cut, expected movement</h2>
 <div class="cols">{''.join(blocks)}</div>
