@@ -232,7 +232,10 @@ def force_envelope_figure(a, system: str = "si"):
     ax.axhline(0, color="k", lw=0.6)
     ax.set_xlabel(f"rail temperature [{units.label(units.display_unit('temperature', system))}]")
     ax.set_ylabel(f"force per rail [{units.display_unit('force', system)}] (compression +)")
-    ax.set_title(f"{s.id} {s.name}: force per rail ({c.verdict})", fontsize=10)
+    d = a.climate.design
+    basis = "observed extremes" if d.design_basis == "observed" else f"{d.return_period_years:g}-year {d.design_basis}"
+    ax.set_title(f"{s.id} {s.name}: force per rail ({c.verdict})\ndesign temperatures {basis}, "
+                 f"drift allowance {units.fmt(s.drift_allowance_K, 'temperature_difference', system)}", fontsize=9)
     ax.legend(fontsize=7, loc="upper left", framealpha=0.9)
     ax.grid(alpha=0.3)
     return fig
@@ -253,12 +256,14 @@ def figure_png_bytes(fig) -> bytes:
 #: Print styles shared by the HTML reports: landscape pages, rows never split across
 #: pages, plots two or three to a page.
 PRINT_CSS = """
-@page { size: A4 landscape; margin: 9mm; }
+@page { size: A4 landscape; margin: 7mm; }
 @media print {
   body { margin: 0; font-size: 8pt; }
-  h1 { font-size: 14pt; margin: 0 0 1mm 0; } p { margin: 1mm 0; }
-  table { font-size: 7pt; width: 100%; } td, th { padding: 1px 3px; }
-  td small { font-size: 6.8pt; }
+  h1 { font-size: 13pt; margin: 0 0 1mm 0; } p { margin: 0.8mm 0; font-size: 7.5pt; }
+  .caution { padding: 0.8mm 2mm; margin: 1mm 0; font-size: 7.5pt; }
+  table { font-size: 7pt; width: 100%; } td, th { padding: 0.5px 2px; }
+  td small { font-size: 6.5pt; line-height: 1.15; } td.why { width: 48%; }
+  th { font-size: 6.5pt; }
   tr, figure, .caution, li { break-inside: avoid; page-break-inside: avoid; }
   thead { display: table-header-group; }
   h2 { break-after: avoid; page-break-after: avoid; }
@@ -348,7 +353,7 @@ def check_html(assessments, pngs: dict[str, bytes], caution: str, title: str = "
             f"<td class='num'>{T(c.design_min_rail_temperature_C)}</td>"
             f"<td class='num'>{F(-c.max_tension_force_per_rail_N)}</td><td class='num'>{L(c.pull_apart_gap_m)}</td>"
             f"<td class='num'>{T(t.target_neutral_temperature_C)}</td>"
-            f"<td style='min-width:26em'><small>{what}</small></td></tr>"
+            f"<td class='why' style='min-width:26em'><small>{what}</small></td></tr>"
         )
     figs = "".join(
         f"<figure><img alt='force envelope {e(sid)}' src='data:image/png;base64,{base64.b64encode(b).decode()}'>"
