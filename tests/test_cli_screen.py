@@ -324,3 +324,12 @@ def test_trend_sentence_names_rise_and_fall_honestly():
     assert "Largest decrease: B -4.1 ± 1.2" in text and "clear (beyond two standard errors)" in text
     assert "Largest increase: A +0.1 ± 0.0" in text and "C" not in text.replace("clear", "").replace("Largest", "")
     assert "steepest" not in text.lower()
+
+
+def test_wide_table_adds_the_record_and_worst_rise(run_cli, greensboro, tmp_path):
+    _, _, _, _, neutrals = greensboro
+    f = _write_sections(tmp_path / "s.toml", neutrals, events=False)
+    narrow = run_cli("screen", f).stdout
+    wide = run_cli("screen", f, "--wide").stdout
+    assert "missing days" not in narrow and "missing days" in wide and "1990-01-01 – 1990-12-31" in wide
+    assert max(len(ln) for ln in narrow.splitlines()) <= 100

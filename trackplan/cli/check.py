@@ -12,7 +12,7 @@ from rich.table import Table
 
 from trackplan import CAUTION, __version__, notices, units
 from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
-                                  command, console, emit_json, print_caution)
+                                  command, console, emit_json, print_caution, wide_console)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
                                    SECTIONS_ARG, STRICT_OPTION, load_and_assess, network_name, print_data_warnings,
                                    print_records,
@@ -88,7 +88,7 @@ def print_checks(results, s: str, wide: bool = False) -> None:
                     units.number(-c.max_tension_force_per_rail_N, "force", s, 1 if us else 0),
                     units.number(a.target.target_neutral_temperature_C, "temperature", s)]
         table.add_row(*row)
-    console.print(table)
+    (wide_console() if wide else console).print(table)
     for a in results:
         c = a.check
         console.print(f"[{_STYLE[c.verdict]}]{a.section.id} {c.verdict}[/]: " + "; ".join(escape(r) for r in c.reasons_in(s)),

@@ -88,6 +88,9 @@ def _group(
 #: designed to fit it.
 PIPED_WIDTH = 100
 
+#: Width of the --wide tables (wider than the terminal if need be: they are asked for).
+WIDE_WIDTH = 150
+
 
 def _width(stream) -> int | None:
     """None (the terminal's width, or COLUMNS when set: rich reads it) or the piped width."""
@@ -97,6 +100,11 @@ def _width(stream) -> int | None:
 
 
 console = Console(width=_width(sys.stdout))
+
+
+def wide_console() -> Console:
+    """A console for the --wide tables: at least :data:`WIDE_WIDTH` columns (they are asked for)."""
+    return Console(width=max(console.width, WIDE_WIDTH))
 err_console = Console(stderr=True, width=_width(sys.stderr))
 
 

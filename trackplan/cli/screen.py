@@ -11,8 +11,8 @@ from rich.markup import escape
 from rich.table import Table
 
 from trackplan import CAUTION, __version__, units
-from trackplan.cli.common import (COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, err_console,
-                                  parse_option, print_caution, progress_enabled)
+from trackplan.cli.common import (COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem, command, console,
+                                  emit_json, err_console, parse_option, print_caution, progress_enabled, wide_console)
 from trackplan.cli.network import (REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, print_records, read_records,
                                    read_sections, report_problems)
 from trackplan.errors import InputError
@@ -123,7 +123,7 @@ def print_summary(result, s: str, wide: bool = False) -> None:
         heads[1:1] = [("record", "left"), ("missing days", "right")]
         heads.insert(-1, (units.header("rise / allowable", "temperature_difference", s), "right"))
     for h, j in heads:
-        table.add_column(h, justify=j, no_wrap=h == "worst day")
+        table.add_column(h, justify=j, no_wrap=h in ("worst day", "record"))
     for r in secs:
         w = r.worst_day
         worst = "–" if w is None else w.date.isoformat() + (f" [{_LEVEL_STYLE[w.level]}]{w.level}[/]" if w.level else "")
@@ -133,7 +133,7 @@ def print_summary(result, s: str, wide: bool = False) -> None:
             row[1:1] = [f"{r.first_date.isoformat()} – {r.last_date.isoformat()}", str(r.missing_days)]
             row.insert(-1, "–" if w is None else f"{dT(w.rise_K)} / {dT(w.allowable_rise_K)}")
         table.add_row(*row)
-    console.print(table)
+    (wide_console() if wide else console).print(table)
 
     worst = sorted((d for r in result.sections for d in r.worst_days[:3] if d.level is not None),
                    key=lambda d: d.margin_K)[:10]
