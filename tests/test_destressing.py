@@ -345,4 +345,5 @@ def test_blocking_warnings_make_the_verdict():
     assert "achieved_differs_from_target" in whatif.warning_codes and whatif.can_be_done_now
     j = over.as_json()
     assert j["can_be_done_now"] is False and j["blocking"][0]["code"] == "force_beyond_capacity"
+    assert j["blocking"][0]["where"] == "--tensor-capacity"
     assert "200 kN" in j["blocking"][0]["message"]

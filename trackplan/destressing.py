@@ -99,6 +99,8 @@ MODES = {
 
 #: Warnings that stop the work as planned ("can it be done now?" is no while any holds).
 BLOCKING_CODES = ("rail_hotter_than_target", "force_beyond_capacity", "string_too_long", "rail_to_add")
+_WHERE = {"rail_hotter_than_target": "--rail-temp", "force_beyond_capacity": "--tensor-capacity",
+          "string_too_long": "--length", "rail_to_add": "--target"}
 
 #: Pulling arrangements (CLI choices come from the keys).
 PULLS = {
@@ -464,10 +466,8 @@ class DestressPlan:
         Repair mode: the removed length (clipped rail), the opening between
         the freed ends, the closure rail length [m].
     freed_length_m : float or None
-        Repair mode: freed rail on each pulled side, ``D - G`` shared by the
-        pulled lengths [m]; the marks lie on it. Each pulled length (``D`` or
-        ``D/2``) is this rail plus its share of the closure rail and welds,
-        all stretched together by the tensor.
+        Repair: the freed rail ``D - G`` [m], marks on it; each pulled length adds its
+        share of the closure rail and welds, all stretched together by the tensor.
     heating_temperature_C : float or None
         Heating mode: the rail temperature to reach [degC].
     observed_movement_m, at_mark_m, achieved_neutral_C : float or None
@@ -554,7 +554,7 @@ class DestressPlan:
             "within_capacity": self.within_capacity,
             "stretch_possible": self.stretch_possible,
             "can_be_done_now": self.can_be_done_now,
-            "blocking": [{"code": c, "message": w} for c, w in self.blocking],
+            "blocking": [{"code": c, "message": w, "where": _WHERE.get(c)} for c, w in self.blocking],
             "mark_spacing_m": self.mark_spacing_m,
             "marks": [{"distance_m": d, "movement_mm": m * 1e3} for d, m in self.marks],
             "max_pull_length_m": self.max_pull_length_m,

@@ -228,7 +228,7 @@ def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s, m
     meta_rows = list(meta_rows)
     kv = dict(meta_rows)
     settings = (f"{kv.get('rail', '')}, azimuth {kv.get('track azimuth', '')}, shade {kv.get('shade', '')}, "
-                f"{kv.get('method', '')}; {kv.get('return period', '')} {kv.get('distribution', '')}")
+                f"{kv.get('method', '')}; return period {kv.get('return period', '')}, {kv.get('distribution', '')}")
     if hourly is not None:
         # local standard time with its UTC offset, e.g. 1995-07-01T14:00-06:00
         # (datetime_as_string: strftime is far too slow for 30 years of hours)
