@@ -83,7 +83,7 @@ def section_action(a, watch_fraction: float = DEFAULT_WATCH_FRACTION) -> Phrase 
         step(f"restore and consolidate the ballast and its shoulder ({what}){before_hot}")
     if heat_act or heat_watch:
         f = 1.0 if heat_act else watch_fraction
-        step("patrol in hot weather when the rail is above {a_hot}",
+        step(("until then, " if heat_act else "") + "patrol in hot weather when the rail is above {a_hot}",
              ("a_hot", c.current_neutral_temperature_C + f * c.allowable_rise_K, "temperature", 0))
 
     tn, tmin = c.cold_neutral_temperature_C, c.design_min_rail_temperature_C
