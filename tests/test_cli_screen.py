@@ -279,7 +279,9 @@ def test_season_follows_each_station_hemisphere(run_cli, tmp_path):
     assert months == {"GB-N": [5, 6, 7, 8, 9], "GB-S": [11, 12, 1, 2, 3]}
     assert d["settings"]["season"] == "summer"
     res, d = run_cli("screen", f, "--months", "5-9", "--json", json_out=True)
-    warn = {s["id"]: " ".join(s["warnings"]) for s in d["sections"]}
+    warn = {s["id"]: " ".join(w["message"] for w in s["warnings"]) for s in d["sections"]}
+    codes = {s["id"]: [w["code"] for w in s["warnings"]] for s in d["sections"]}
+    assert "winter_months" in codes["GB-S"] and "winter_months" not in codes["GB-N"]
     assert "mostly winter" in warn["GB-S"] and "southern hemisphere" in warn["GB-S"]
     assert "mostly winter" not in warn["GB-N"]
     assert all(s["months"] == [5, 6, 7, 8, 9] for s in d["sections"])

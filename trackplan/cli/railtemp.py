@@ -197,7 +197,7 @@ def _print(design, station, meta, site, profile, method, warnings, s, out) -> No
     if basis != "observed":
         dt.add_column(f"{design.ci_level:.0%} interval", justify="right")
         dt.add_column("return level", justify="right")
-    dt.add_column("recorded rail / air", justify="right")
+    dt.add_column("recorded (rail, air)", justify="right", no_wrap=True)
     for tail in ("max", "min"):
         d = getattr(design, f"design_{tail}_rail_temperature_C")
         row = ["maximum" if tail == "max" else "minimum", units.fmt(d, "temperature", s),
@@ -205,7 +205,7 @@ def _print(design, station, meta, site, profile, method, warnings, s, out) -> No
         if basis != "observed":
             row.append(ci(getattr(design, f"{tail}_ci_C")))
             row.append(units.fmt(getattr(design, f"{tail}_return_level_C"), "temperature", s))
-        row.append(f"{units.fmt(getattr(design, f'observed_{tail}_rail_temperature_C'), 'temperature', s)} / "
+        row.append(f"{units.fmt(getattr(design, f'observed_{tail}_rail_temperature_C'), 'temperature', s)}, "
                    f"{units.fmt(getattr(design, f'{tail}_air_temperature_C'), 'temperature', s)}")
         dt.add_row(*row)
     console.print(dt)
