@@ -112,3 +112,11 @@ def test_figures_inside_words_follow_the_unit_system():
     assert "105.8 °F" in us and "+2.7 Δ°F" in us and "1.0 in" in us and "1312 ft" in us
     assert "3 m/s" in us and "60E1" in us and "degC" not in us and " mm" not in us
     assert text_in(t, "si") == t.replace("degC", "°C")
+
+
+def test_ranges_inside_words_convert_both_ends():
+    from trackplan.units import text_in
+
+    # -20.1 degC = -4.2 degF, -2.1 degC = 28.2 degF (exact definitions)
+    us = text_in("the interval of the fitted level (-20.1 to -2.1 degC)", "us")
+    assert "(-4.2 to 28.2 °F)" in us

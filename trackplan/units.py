@@ -570,6 +570,8 @@ _TEXT_UNITS = {
     "mm": ("short_length", 1e-3, 1), "m": ("length", 1.0, 0), "km": ("length", 1e3, 0),
     "kN": ("force", 1e3, 1), "MPa": ("stress", 1e6, 1), "kN/m": ("force_per_length", 1e3, 0),
 }
+_RANGE_RE = re.compile(r"(?<![\w.])([-+]?\d+(?:\.(\d+))?) to ([-+]?\d+(?:\.(\d+))?) ?(degC|°C|K|mm|km|m|kN|MPa)"
+                       r"(?![\w/²³⁴*])")
 _TEXT_RE = re.compile(r"(?<![\w.])([-+]?\d+(?:\.(\d+))?) ?(degC|°C|K|mm|km|m|kN/m|kN|MPa)(?![\w/²³⁴*])")
 
 
@@ -581,6 +583,12 @@ def text_in(text: str, system: str = "si") -> str:
     warnings and notes); a figure keeps its decimals, one more for the coarser
     US units of short lengths, forces and stresses.
     """
+    def sub_range(m: re.Match) -> str:
+        kind, factor, extra = _TEXT_UNITS[m.group(5)]
+        digits = max(len(m.group(2) or ""), len(m.group(4) or "")) + extra
+        lo = number(float(m.group(1)) * factor, kind, system, digits)
+        return f"{lo} to {fmt(float(m.group(3)) * factor, kind, system, digits)}"
+
     def sub(m: re.Match) -> str:
         unit = m.group(3)
         kind, factor, extra = _TEXT_UNITS[unit]
@@ -591,4 +599,6 @@ def text_in(text: str, system: str = "si") -> str:
         sign = "+" if m.group(1).startswith("+") and value >= 0 else ""
         return sign + fmt(value, kind, system, digits)
 
+    if system != "si":  # "A to B degC": the unit is written once, after B
+        text = _RANGE_RE.sub(lambda m: f"{sub_range(m)}", text)
     return _TEXT_RE.sub(sub, text)
