@@ -100,7 +100,7 @@ def trend_sentence(secs) -> str | None:
     down = min(with_trend, key=lambda r: r.trend.heat_days_per_decade)
     for word, r in (("Largest increase", up), ("Largest decrease", down)):
         t = r.trend
-        if (word == "Largest increase") != (t.heat_days_per_decade > 0):
+        if (t.heat_days_per_decade <= 0) if word == "Largest increase" else (t.heat_days_per_decade >= 0):
             continue
         clear = "clear (beyond two standard errors)" if _clear(t) else "within two standard errors of no change"
         parts.append(f"{word}: {r.id} {_signed(t.heat_days_per_decade)} ± {t.heat_days_per_decade_se or 0:.1f} "
@@ -115,7 +115,7 @@ def print_summary(result, s: str, wide: bool = False) -> None:
 
     secs = sorted(result.sections, key=rank_key)
     dT = lambda v: units.number(v, "temperature_difference", s)
-    table = Table(title="Risk days per section, worst first: days in the record (per complete year); "
+    table = Table(box=None, pad_edge=False, header_style="bold underline", title="Risk days per section, worst first: days in the record (per complete year); "
                   "trend of heat days per decade")
     heads = [("section", "left"), ("years", "right"), ("watch", "right"), ("restrict", "right"),
              ("critical", "right"), ("cold", "right"), ("worst day", "left"), ("trend", "right")]
@@ -123,7 +123,7 @@ def print_summary(result, s: str, wide: bool = False) -> None:
         heads[1:1] = [("record", "left"), ("missing days", "right")]
         heads.insert(-1, (units.header("rise / allowable", "temperature_difference", s), "right"))
     for h, j in heads:
-        table.add_column(h, justify=j, no_wrap=h in ("worst day", "record"))
+        table.add_column(h, justify=j, no_wrap=True)
     for r in secs:
         w = r.worst_day
         worst = "–" if w is None else w.date.isoformat() + (f" [{_LEVEL_STYLE[w.level]}]{w.level}[/]" if w.level else "")
