@@ -59,11 +59,12 @@ def print_targets(results, s: str) -> None:
         return
     tu = units.label(units.display_unit("temperature", s))
     du = units.label(units.display_unit("temperature_difference", s))
-    table = Table(title=f"Recommended neutral temperature (temperatures in {tu}, rise in {du})")
+    table = Table(title=f"Recommended neutral temperature (temperatures in {tu}, rise in {du})", box=None,
+                  pad_edge=False, header_style="bold underline")
     for head, just in (("section", "left"), ("design max", "right"), ("design min", "right"),
                        ("allowable rise", "right"), ("feasible window", "right"), ("target", "right"),
                        ("laying range", "right"), ("cold limit", "left")):
-        table.add_column(head, justify=just)
+        table.add_column(head, justify=just, no_wrap=True)
     T = lambda v: units.number(v, "temperature", s)
     for a in results:
         t = a.target
@@ -72,9 +73,14 @@ def print_targets(results, s: str) -> None:
         table.add_row(a.section.id, T(a.climate.design_max_C), T(a.climate.design_min_C),
                       units.number(a.allowable_rise_K, "temperature_difference", s), win,
                       f"[bold]{T(t.target_neutral_temperature_C)}[/]"
-                      + ("" if t.feasible or t.target_neutral_temperature_C is None else f" ({t.priority} first)"), rng,
+                      + ("" if t.feasible or t.target_neutral_temperature_C is None else "*"), rng,
                       {"pull-apart gap": "break gap", "tension stress": "stress"}.get(t.governing_cold, t.governing_cold))
     console.print(table)
+    starred = sorted({a.target.priority for a in results
+                      if not a.target.feasible and a.target.target_neutral_temperature_C is not None})
+    if starred:
+        console.print(f"* empty window: the target keeps the {' and '.join(starred)} limit first (--priority); "
+                      "the risk on the other side is said below.", highlight=False)
     for a in results:
         t = a.target
         if not t.feasible:
