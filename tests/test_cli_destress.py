@@ -79,6 +79,9 @@ def test_centre_pull_repair_heating_restrained(run_cli):
     _, r = run_cli("destress", "--rail", "60E1", "--length", "60 m", "--rail-temp", "10 degC",
                    "--current-neutral", "27 degC", "--removed", "4.5 m", "--json", json_out=True)
     assert r["mode"] == "repair" and r["pull"] == "centre" and r["target_neutral_temperature_C"] == 27.0
+    # the marks lie on the freed rail (both sides together: the distance between the fixed points less the opening)
+    assert r["freed_length_m"] == pytest.approx(r["length_m"] - r["opening_mm"] / 1e3)
+    assert max(m["distance_m"] for m in r["marks"]) == pytest.approx(r["freed_length_m"] / 2)
     assert r["closure_length_mm"] == pytest.approx((4.5 - 1.15e-5 * 4.5 * 17 - 0.050) * 1e3, rel=1e-9)
     _, h = run_cli(*BASE, "--mode", "heating", "--json", json_out=True)
     assert h["heating_temperature_C"] == pytest.approx(27.0) and h["tensor_force_per_rail_kN"] == 0.0

@@ -573,7 +573,7 @@ class DestressPlan:
             out["removed_length_mm"] = None if self.removed_length_m is None else self.removed_length_m * 1e3
             out["opening_mm"] = self.opening_m * 1e3
             out["closure_length_mm"] = self.closure_length_m * 1e3
-            out["freed_length_per_side_m"] = self.freed_length_m
+            out["freed_length_m"] = self.freed_length_m
         if self.mode == "heating":
             out["heating_temperature_C"] = self.heating_temperature_C
             out["free_expansion_mm"] = self.extension_m * 1e3
