@@ -87,7 +87,7 @@ def screen_html(result, pngs: dict[str, bytes], settings, system: str = "si", ne
     figs = "".join(f"<figure><img alt='{e(name)}' src='data:image/png;base64,{base64.b64encode(b).decode()}'>"
                    f"</figure>" for name, b in pngs.items())
     heading = "Risk-day screening" + (f": {e(network)}" if network else "")
-    settings_html = "; ".join(f"{e(k)}: {e(str(v))}" for k, v in settings if k != "command")
+    settings_html = "; ".join(f"{e(k)}: {e(str(v))}" for k, v in settings if k not in ("command", "section file"))
     warn = warnings_html(((r.station, r.id, w) for r in secs for w in r.warnings), system)
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><title>{heading}</title>
