@@ -119,7 +119,7 @@ import numpy as np
 from trackplan import notices, thermal
 from trackplan.check import DEFAULT_WATCH_FRACTION
 from trackplan.errors import InputError
-from trackplan.seasons import month_list
+from trackplan.seasons import month_list, station_months, winter_warnings
 
 #: Heat levels, lowest first; their codes in the per-day arrays are 1, 2, 3 (0 = none).
 LEVELS = ("watch", "restrict", "critical")
@@ -800,13 +800,6 @@ class Screener:
         self._resistance: dict = {}
 
     # -- caches ---------------------------------------------------------
-    def _months(self, latitude_deg: float | None) -> tuple[int, int] | None:
-        """The month range screened at a station: --months, or --season at its hemisphere."""
-        from trackplan.seasons import season_months
-
-        o = self.options
-        return o.months if o.season is None else season_months(o.season, latitude_deg)
-
     def _calendar(self, daily, where: str, months=None):
         """Window of a record's dates (shared by every orientation of the record)."""
         idx = daily.index
@@ -845,16 +838,10 @@ class Screener:
             o = self.options
             where = f"{section.file.name} [sections.{section.id}]"
             lat = key[1] if len(key) > 1 and isinstance(key[1], float) else section.latitude_deg
-            months = self._months(lat)
+            months = station_months(o.months, o.season, lat)
             sel, dates, day, sy, groups, season_days, first, last = self._calendar(daily, where, months)
             station = str(meta.get("station") or section.climate_path.stem)
-            from trackplan.notices import Notice
-            from trackplan.seasons import hemisphere, mostly_winter
-
-            season_warn = () if o.season is not None or not mostly_winter(months, lat) else (Notice(
-                f"months {months[0]}-{months[1]} are mostly winter at {station} (latitude {lat:.1f}, "
-                f"{hemisphere(lat)}ern hemisphere): few heat days are to be expected; for its hot season "
-                "use --season summer", "winter_months", "--months"),)
+            season_warn = () if o.season is not None else winter_warnings(months, lat, station)
             self._views[key] = _RecordView(
                 dates=dates,
                 day=day,

@@ -62,3 +62,19 @@ def mostly_winter(months: tuple[int, int] | None, latitude_deg: float | None) ->
     ms = month_list(months)
     winter = _WINTER_HALF[hemisphere(latitude_deg)]
     return sum(m in winter for m in ms) * 2 > len(ms)
+
+
+def station_months(months: tuple[int, int] | None, season: str | None, latitude_deg: float | None):
+    """The month range screened at a station: ``months`` as given, or ``season`` at its hemisphere."""
+    return months if season is None else season_months(season, latitude_deg)
+
+
+def winter_warnings(months: tuple[int, int] | None, latitude_deg: float | None, station: str) -> tuple:
+    """A warning (code ``winter_months``) when explicit months are mostly winter at the station."""
+    if not mostly_winter(months, latitude_deg):
+        return ()
+    from trackplan.notices import Notice
+
+    return (Notice(f"months {months[0]}-{months[1]} are mostly winter at {station} (latitude {latitude_deg:.1f}, "
+                   f"{hemisphere(latitude_deg)}ern hemisphere): few heat days are to be expected; for its hot "
+                   "season use --season summer", "winter_months", "--months"),)
