@@ -120,3 +120,16 @@ def test_ranges_inside_words_convert_both_ends():
     # -20.1 degC = -4.2 degF, -2.1 degC = 28.2 degF (exact definitions)
     us = text_in("the interval of the fitted level (-20.1 to -2.1 degC)", "us")
     assert "(-4.2 to 28.2 °F)" in us
+
+
+def test_csv_precision_by_quantity_and_settings_lines():
+    import pandas as pd
+
+    from trackplan.reports import csv_text
+
+    df = pd.DataFrame({"alpha_per_K": [1.15e-5], "rise_K": [33.123456789], "gap_mm": [14.04754],
+                       "force_per_rail_kN": [611.23456], "ratio": [0.1234567891234], "n": [3]})
+    text = csv_text(df, [("command", "trackplan check"), ("months", "5-9"), ("empty", "")])
+    lines = text.splitlines()
+    assert lines[:2] == ["# command: trackplan check", "# months: 5-9"]  # an empty setting is left out
+    assert lines[3] == "1.15e-05,33.12,14.0,611.23,0.123457,3"  # a coefficient keeps its significant digits

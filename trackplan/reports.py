@@ -91,7 +91,7 @@ def write_text(path: str | Path, text: str, inputs: Iterable[str | Path] = ()) -
 #: precision the quantity is known to (a rail temperature to 0.01 degC, a force to
 #: 0.01 kN, ...); other float columns keep 6 significant digits.
 CSV_DECIMALS = {"_C": 2, "_K": 2, "_mm": 1, "_kN": 2, "_MPa": 1, "_m": 3, "_kN_per_m": 3, "_years": 1,
-                "_per_year": 2, "_per_decade": 2, "_deg": 2}
+                "_per_year": 2, "_per_decade": 2, "_deg": 2, "_per_K": None}
 
 
 def rounded(frame):
@@ -104,7 +104,7 @@ def rounded(frame):
                        if str(col).endswith(suf)), None)
         if digits is not None:
             out[col] = out[col].round(digits)
-        else:
+        else:  # no unit suffix known, or a small coefficient (alpha_per_K): significant digits
             out[col] = out[col].map(lambda v: float(f"{v:.6g}") if v == v else v)
     return out
 
