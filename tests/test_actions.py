@@ -52,3 +52,13 @@ def test_ballast_unknown_neutral_and_ok():
     assert section_action(assessment(design_max_C=30.0, design_min_C=0.0)) is None  # ok: nothing to do
     w = str(section_action(assessment(design_max_C=55.0, design_min_C=0.0, ballast="disturbed", basis="estimated")))
     assert "restore and consolidate the ballast" in w and "measure the neutral temperature before June" in w
+
+
+def test_empty_window_cold_first_does_not_claim_to_cure_the_heat_side():
+    a = assessment()
+    a.target = NS(target_neutral_temperature_C=20.0, laying_range_C=(17.0, 23.0), feasible=False, heat_floor_C=38.0)
+    text = str(section_action(a))
+    assert "destress to" not in text and "heat speed restriction" in text
+    a.target = NS(target_neutral_temperature_C=40.0, laying_range_C=(37.0, 43.0), feasible=False, heat_floor_C=38.0)
+    text = str(section_action(a))
+    assert "destress to a neutral temperature of 40 °C" in text and "window is empty" in text

@@ -69,10 +69,16 @@ def section_action(a, watch_fraction: float = DEFAULT_WATCH_FRACTION) -> Phrase 
     heat_act = c.heat_margin_K < 0
     heat_watch = not heat_act and c.heat_rise_K >= watch_fraction * c.allowable_rise_K
     weak_ballast = sec.ballast in _NOT_CONSOLIDATED or sec.shoulder != "full"
+    feasible = getattr(tgt, "feasible", True)
+    floor = getattr(tgt, "heat_floor_C", None)
+    # a target below the heat floor (an empty window with the cold side first) does not cure the heat side
+    heat_target = target is not None and (feasible or floor is None or target >= floor - 1e-9)
     if heat_act:
-        if target is not None:
+        if heat_target:
             lo, hi = tgt.laying_range_C or (target, target)
-            step("destress to a neutral temperature of {a_t} (laying range {a_lo} to {a_hi})" + before_hot,
+            step("destress to a neutral temperature of {a_t} (laying range {a_lo} to {a_hi})" + before_hot
+                 + ("" if feasible else " (the window is empty: this keeps the heat limit, and the cold side is "
+                                        "then beyond its limit)"),
                  ("a_t", target, "temperature", 0), ("a_lo", lo, "temperature", 0), ("a_hi", hi, "temperature", 0))
         else:
             step("no neutral temperature meets both the heat and cold limits: strengthen the track "
