@@ -103,8 +103,10 @@ def section_action(a, watch_fraction: float = DEFAULT_WATCH_FRACTION) -> Phrase 
         f = 1.0 if stress > slim else watch_fraction
         cold.append(tn + (tmin - tn) * f * slim / stress)
     if cold:
+        after = " (with the present neutral temperature: run the check again after destressing)" \
+            if heat_act and heat_target else ""
         step("inspect welds, joints and fastenings before winter and patrol for broken rails and pull-aparts "
-             "when the rail is below {a_cold}", ("a_cold", max(cold), "temperature", 0))
+             "when the rail is below {a_cold}" + after, ("a_cold", max(cold), "temperature", 0))
     if gap > glim:
         r = a.longitudinal_resistance_N_per_m
         step("raise the longitudinal resistance to at least {a_r} per rail (now {a_rn}: anchors, fastenings, "
