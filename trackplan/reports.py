@@ -262,7 +262,7 @@ PRINT_CSS = """
   h1 { font-size: 13pt; margin: 0 0 1mm 0; } p { margin: 0.8mm 0; font-size: 7.5pt; }
   .caution { padding: 0.8mm 2mm; margin: 1mm 0; font-size: 7.5pt; }
   table { font-size: 7pt; width: 100%; } td, th { padding: 0.5px 2px; }
-  td small { font-size: 6.5pt; line-height: 1.15; } td.why { width: 48%; }
+  td small { font-size: 6pt; line-height: 1.12; } td.why { width: 54%; }
   th { font-size: 6.5pt; }
   tr, figure, .caution, li { break-inside: avoid; page-break-inside: avoid; }
   thead { display: table-header-group; }
