@@ -109,6 +109,12 @@ def test_check_report_prints_on_few_pages(demo_out, tmp_path):
     info = subprocess.run([pdfinfo, str(pdf)], capture_output=True, text=True, check=True).stdout
     pages = int(next(ln.split()[-1] for ln in info.splitlines() if ln.startswith("Pages:")))
     assert 1 <= pages <= 4  # nine sections: one summary page, plots three to a row
+    pdftotext = shutil.which("pdftotext")
+    if pdftotext:  # the whole summary table on the first page (no row split or carried over)
+        first = subprocess.run([pdftotext, "-f", "1", "-l", "1", str(pdf), "-"], capture_output=True, text=True,
+                               check=True).stdout
+        ids = pd.read_csv(out / "check.csv", comment="#")["section"]
+        assert all(sid in first for sid in ids)
 
 
 def test_check_terminal_fits_100_columns_with_actions(demo_out):
