@@ -41,7 +41,8 @@ def test_us_units_and_bare_numbers(run_cli):
                   "--units", "us")
     assert res.exit_code == 0
     out = res.stdout
-    assert "1320 ft" in out and "60 degF" in out  # echoed with the unit
+    # bare numbers shown with the unit they were read in, once ("1320 ft = 1320.0 ft" would be an echo of itself)
+    assert "1320.0 ft" in out and "60.0 °F" in out and "1320 ft =" not in out
     assert "distance (ft)" in out and "movement (in)" in out and "kip" in out
     assert "Caution:" in out
 
@@ -78,6 +79,9 @@ def test_centre_pull_repair_heating_restrained(run_cli):
     _, r = run_cli("destress", "--rail", "60E1", "--length", "60 m", "--rail-temp", "10 degC",
                    "--current-neutral", "27 degC", "--removed", "4.5 m", "--json", json_out=True)
     assert r["mode"] == "repair" and r["pull"] == "centre" and r["target_neutral_temperature_C"] == 27.0
+    # the marks lie on the freed rail (both sides together: the distance between the fixed points less the opening)
+    assert r["freed_length_m"] == pytest.approx(r["length_m"] - r["opening_mm"] / 1e3)
+    assert max(m["distance_m"] for m in r["marks"]) == pytest.approx(r["freed_length_m"] / 2)
     assert r["closure_length_mm"] == pytest.approx((4.5 - 1.15e-5 * 4.5 * 17 - 0.050) * 1e3, rel=1e-9)
     _, h = run_cli(*BASE, "--mode", "heating", "--json", json_out=True)
     assert h["heating_temperature_C"] == pytest.approx(27.0) and h["tensor_force_per_rail_kN"] == 0.0
@@ -133,3 +137,44 @@ def test_bare_observed_movement_is_mm_and_absurd_reading_refused(run_cli):
     res = run_cli("destress", "--rail", "60E1", "--length", "400 m", "--rail-temp", "15 degC", "--target", "27 degC",
                   "--observed-movement", "40 m", "--at-mark", "400 m")
     assert res.exit_code == 2 and "no pull can reach" in res.output
+
+
+def test_verdict_follows_every_blocking_warning(run_cli):
+    res = run_cli(*BASE, "--tensor-capacity", "200 kN")
+    assert res.exit_code == 0
+    line = next(ln for ln in res.stdout.splitlines() if "Can be done now" in ln)
+    assert "NO" in line and "capacity" in line and "yes" not in line
+    res = run_cli("destress", "--rail", "60E1", "--length", "1 mi", "--rail-temp", "15", "--target", "27")
+    line = next(ln for ln in res.stdout.splitlines() if "Can be done now" in ln)
+    assert "NO" in line and "too long" in line
+    _, d = run_cli(*BASE, "--tensor-capacity", "200 kN", "--json", json_out=True)
+    assert d["can_be_done_now"] is False and [b["code"] for b in d["blocking"]] == ["force_beyond_capacity"]
+    _, d = run_cli(*BASE, "--tensor-capacity", "600 kN", "--json", json_out=True)
+    assert d["can_be_done_now"] is True and d["blocking"] == []
+
+
+def test_verdict_on_the_printed_sheet(run_cli, tmp_path):
+    res = run_cli(*BASE, "--tensor-capacity", "200 kN", "--out", tmp_path / "c")
+    assert res.exit_code == 0
+    page = (tmp_path / "c" / "destress_crew_sheet.html").read_text()
+    assert "NO: pull beyond tensor capacity" in page and ">yes<" not in page
+    assert "class='key'" in page  # cut length and tensor pull emphasised
+
+
+def test_no_redundant_echo(run_cli):
+    out = run_cli(*BASE).stdout
+    assert "400 m = 400.0 m" not in out and "400.0 m" in out
+    assert "1320 ft = 402.3 m" in run_cli("destress", "--rail", "60E1", "--length", "1320 ft", "--rail-temp", "15",
+                                          "--target", "27").stdout
+
+
+def test_us_defaults_are_us_practice_values(run_cli):
+    # 1 in thermite gap, 1320 ft longest pull, marks every 100 ft (from memory, common practice),
+    # not the SI defaults converted (0.98 in, 1312 ft)
+    _, d = run_cli("destress", "--rail", "136RE", "--length", "1600", "--rail-temp", "60", "--target", "95",
+                   "--units", "us", "--json", json_out=True)
+    assert d["weld_allowance_mm"] == pytest.approx(25.4) and d["max_pull_length_m"] == pytest.approx(1320 * 0.3048)
+    assert d["mark_spacing_m"] == pytest.approx(30.48)
+    out = run_cli("destress", "--rail", "136RE", "--length", "1600", "--rail-temp", "60", "--target", "95",
+                  "--units", "us").stdout
+    assert "1.00 in per weld" in out and "0.98 in" not in out and "1320 ft" in out and "1312" not in out

@@ -91,3 +91,68 @@ def test_console_entry_loads_only_the_command_it_runs():
     loaded, heavy = json.loads(res.stderr.strip().splitlines()[-1])
     assert "trackplan.cli.force" in loaded and "trackplan.cli.screen" not in loaded
     assert heavy == []  # no matplotlib, pvlib, scipy, pandas or pint on the start-up path
+
+
+def test_version_is_light_and_in_process(run_cli):
+    import subprocess
+    import sys
+
+    code = ("import sys; sys.argv = ['trackplan', '--version']\nfrom trackplan.cli import main\nmain()\n"
+            "print(sorted(m for m in sys.modules if m.startswith('trackplan.cli.') or m in ('typer', 'pandas')))")
+    res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    from trackplan import __version__
+
+    assert res.stdout.splitlines() == [f"trackplan {__version__}", "[]"]
+    r = run_cli("--version")
+    assert r.exit_code == 0 and r.stdout.strip() == f"trackplan {__version__}"
+
+
+def test_units_any_case(run_cli):
+    _, d = run_cli("force", "--rail", "136RE", "--neutral", "95", "--at", "135", "--units", "US", "--json",
+                   json_out=True)
+    assert d["neutral_temperature_C"] == pytest.approx(35.0)
+
+
+@pytest.mark.parametrize("args,needle", [
+    (["force", "--bogus"], "No such option '--bogus'"),
+    (["nosuch"], "No such command 'nosuch'"),
+    (["force", "--units", "metric"], "'metric' is not one of"),
+])
+def test_usage_errors_are_one_line(run_cli, args, needle):
+    res = run_cli(*args)
+    assert res.exit_code == 2
+    lines = [ln for ln in res.output.splitlines() if ln.strip()]
+    assert len(lines) == 1 and lines[0].startswith("error: ") and needle in lines[0] and "--help" in lines[0]
+    assert "╭" not in res.output and "Usage:" not in res.output
+
+
+@pytest.mark.parametrize("args", [
+    ["force", "--rail", "60E1", "--neutral", "27 degC", "--at", "60 degC", "--at", "-20 degC", "--resistance", "8 kN/m"],
+    ["force", "--rail", "136RE", "--neutral", "95", "--at", "140", "--at", "-10", "--units", "us"],
+    ["profiles"],
+    ["destress", "--rail", "60E1", "--length", "200 m", "--rail-temp", "10", "--current-neutral", "27",
+     "--removed", "4.5 m"],
+])
+def test_terminal_tables_fit_100_columns_without_split_words(run_cli, args):
+    # the piped width is 100 columns (trackplan.cli.common.PIPED_WIDTH) unless COLUMNS says otherwise
+    out = run_cli(*args).stdout
+    lines = out.splitlines()
+    assert max(len(ln) for ln in lines) <= 100
+    assert "…" not in out  # no header or cell cut short
+    if args[0] == "force":  # headers and states whole, not folded into pieces
+        assert "compression" in out and "tension" in out
+        assert ("breathing" in out) == ("--resistance" in args)
+
+
+def test_columns_is_honoured_when_piped():
+    import os
+    import subprocess
+    import sys
+
+    code = "import sys; sys.argv = ['trackplan', 'profiles']\nfrom trackplan.cli import main\nmain()"
+    env = dict(os.environ, COLUMNS="72")
+    res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=60)
+    assert max(len(ln) for ln in res.stdout.splitlines()) <= 72
+    env.pop("COLUMNS")
+    res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=60)
+    assert 90 <= max(len(ln) for ln in res.stdout.splitlines()) <= 100

@@ -19,7 +19,8 @@ GREENSBORO = Path(__import__("pvlib").__file__).parent / "data" / "723170TYA.CSV
 JSON_KEYS = {"station", "years", "design_basis", "return_period_years", "design_max_rail_temperature_C",
              "design_min_rail_temperature_C", "max_air_temperature_C", "min_air_temperature_C", "annual",
              "warnings", "caution", "design_max_rail_temperature_ci_C", "design_min_rail_temperature_ci_C",
-             "ci_level", "inputs"}
+             "ci_level", "inputs", "design_max_basis", "design_min_basis", "max_return_level_C",
+             "min_return_level_C"}
 ANNUAL_KEYS = {"year", "max_rail_temperature_C", "min_rail_temperature_C", "max_air_temperature_C",
                "min_air_temperature_C"}
 
@@ -112,10 +113,16 @@ def test_terminal_output_units_and_out_files(small_hourly, tmp_path):
     assert "Annual extremes" in r.output and "°F" in r.output
     assert "only 4 complete years" in r.output  # short-record warning listed
     assert "Caution:" in r.output
+    # each design value says what it is, with the return level and its interval beside it
+    rows = [ln for ln in r.output.splitlines() if ln.startswith(("│ maximum", "│ minimum"))]
+    assert len(rows) == 2 and all(("return level" in ln or "recorded" in ln) and " to " in ln for ln in rows)
+    assert max(len(ln) for ln in r.output.splitlines()) <= 100 and "degC" not in r.output
     for name in ("rail_temperature_hourly.csv", "rail_temperature_daily.csv", "annual_extremes.csv",
                  "annual_extremes.png", "return_levels.png", "hottest_week.png"):
         assert (out / name).stat().st_size > 0, name
-    hourly = pd.read_csv(out / "rail_temperature_hourly.csv")
+    hourly = pd.read_csv(out / "rail_temperature_hourly.csv", comment="#")
+    head = (out / "rail_temperature_hourly.csv").read_text().splitlines()[:12]
+    assert "# command: trackplan railtemp" in head and any(h.startswith("# track azimuth:") for h in head)
     assert list(hourly.columns) == ["time", "air_temperature_C", "rail_temperature_C"]
     assert hourly.time.iloc[0] == "2001-01-01T00:00+01:00"
     assert len(hourly) == 3 * 8760 + 8784  # 2004 is a leap year
@@ -174,3 +181,21 @@ def test_record_with_a_missing_year_warns(tmp_path):
     js = json.loads(r.stdout)
     assert 2003 not in [a["year"] for a in js["annual"]]
     assert any("2003" in w for w in (x["message"] for x in js["warnings"]))
+
+
+def test_lat_lon_given_silences_the_missing_coordinates_warning(tmp_path):
+    # a GHCN-Daily by-station file (layout of the GHCN-Daily readme) without ghcnd-stations.txt beside it
+    import datetime as dt
+
+    day = dt.date(2019, 1, 1)
+    rows = []
+    for k in range(3 * 365):
+        d = (day + dt.timedelta(days=k)).strftime("%Y%m%d")
+        rows += [f"XXC00012345,{d},TMAX,{250 + (k % 50)},,,S,", f"XXC00012345,{d},TMIN,{50 + (k % 30)},,,S,"]
+    f = tmp_path / "XXC00012345.csv"
+    f.write_text("\n".join(rows) + "\n")
+    r = _run(f, "--json")
+    assert r.exit_code == 2 and "--lat" in r.output
+    r = _run(f, "--lat", "40", "--lon", "-100", "--json")
+    assert r.exit_code == 0, r.output
+    assert not any("latitude/longitude" in w["message"] for w in json.loads(r.stdout)["warnings"])

@@ -127,8 +127,8 @@ def test_real_record_counts_json_and_csv(run_cli, tmp_path, greensboro):
     assert res.exit_code == 0, res.output
     secs = {s["id"]: s for s in data["sections"]}
     assert set(secs) == set(neutrals)
-    flagged = pd.read_csv(tmp_path / "out" / "flagged_days.csv")
-    annual = pd.read_csv(tmp_path / "out" / "annual_counts.csv")
+    flagged = pd.read_csv(tmp_path / "out" / "flagged_days.csv", comment="#")
+    annual = pd.read_csv(tmp_path / "out" / "annual_counts.csv", comment="#")
     for sid, tn in neutrals.items():
         heat, cold, rise = _expected(daily, st, p, track, tn, tamped=(sid == "GB-B"))
         s = secs[sid]
@@ -267,3 +267,76 @@ def test_bad_events_exit_2_and_good_sections_still_reported(run_cli, tmp_path, e
 def test_help_has_example(run_cli):
     res = run_cli("screen", "--help")
     assert res.exit_code == 0 and "Example: trackplan screen" in res.output
+
+
+def test_season_follows_each_station_hemisphere(run_cli, tmp_path):
+    # The same record placed north (its own latitude, 36.1 N) and south of the equator.
+    f = _write_sections(tmp_path / "two.toml", {"GB-N": 20.0, "GB-S": 20.0}, events=False)
+    text = f.read_text().replace('[sections.GB-S]\n', '[sections.GB-S]\nlatitude = -36.1\nlongitude = -79.9\n')
+    f.write_text(text)
+    res, d = run_cli("screen", f, "--season", "summer", "--json", json_out=True)
+    months = {s["id"]: s["months"] for s in d["sections"]}
+    assert months == {"GB-N": [5, 6, 7, 8, 9], "GB-S": [11, 12, 1, 2, 3]}
+    assert d["settings"]["season"] == "summer"
+    res, d = run_cli("screen", f, "--months", "5-9", "--json", json_out=True)
+    warn = {s["id"]: " ".join(w["message"] for w in s["warnings"]) for s in d["sections"]}
+    codes = {s["id"]: [w["code"] for w in s["warnings"]] for s in d["sections"]}
+    assert "winter_months" in codes["GB-S"] and "winter_months" not in codes["GB-N"]
+    assert "mostly winter" in warn["GB-S"] and "southern hemisphere" in warn["GB-S"]
+    assert "mostly winter" not in warn["GB-N"]
+    assert all(s["months"] == [5, 6, 7, 8, 9] for s in d["sections"])
+    res = run_cli("screen", f, "--months", "5-9")
+    assert "Warning (" in res.stdout and "GB-S" in res.stdout and "--season summer" in res.stdout
+    res = run_cli("screen", f, "--season", "summer", "--months", "5-9")
+    assert res.exit_code == 2 and "not both" in res.output and "Traceback" not in res.output
+
+
+def test_summary_counts_trend_wording_and_settings_in_files(run_cli, greensboro, tmp_path):
+    _, _, _, _, neutrals = greensboro
+    f = _write_sections(tmp_path / "s.toml", neutrals, events=False)
+    out = tmp_path / "o"
+    res = run_cli("screen", f, "--warming", "1.5 K", "--months", "5-9", "--out", out)
+    lines = res.stdout.splitlines()
+    assert max(len(ln) for ln in lines) <= 100
+    # raw day counts beside the rates: "n (rate)"
+    row = next(ln for ln in lines if "GB-A" in ln)
+    assert "(" in row and ")" in row
+    assert "steepest" not in res.stdout.lower()
+    # every file records the what-ifs and months
+    for name in ("screen_summary.csv", "annual_counts.csv", "flagged_days.csv"):
+        head = (out / name).read_text().splitlines()[:10]
+        assert "# months: 5-9" in head and "# warming: 1.5 K" in head, name
+    html = (out / "screen_summary.html").read_text()
+    assert "warming: 1.5 K" in html and "months: 5-9" in html and "Caution" in html
+    summary = pd.read_csv(out / "screen_summary.csv", comment="#")
+    assert set(summary["months"]) == {"5 6 7 8 9"}
+
+
+def test_trend_sentence_names_rise_and_fall_honestly():
+    from types import SimpleNamespace as NS
+
+    from trackplan.cli.screen import trend_sentence
+
+    def sec(sid, slope, se, days):
+        return NS(id=sid, heat_days_by_level={"watch": days, "restrict": 0, "critical": 0},
+                  trend=NS(heat_days_per_decade=slope, heat_days_per_decade_se=se))
+
+    # a flat trend is neither an increase nor a decrease
+    flat = trend_sentence([sec("A", 0.0, 0.0, 300)])
+    assert "increase" not in flat and "decrease" not in flat
+    text = trend_sentence([sec("A", 0.1, 0.02, 6), sec("B", -4.1, 1.2, 300), sec("C", 9.0, 1.0, 2)])
+    # C has too few heat days for a trend; B's fall is the larger change and is said as a decrease
+    assert "Largest decrease: B -4.1 ± 1.2" in text and "clear (beyond two standard errors)" in text
+    assert "Largest increase: A +0.1 ± 0.0" in text and "C" not in text.replace("clear", "").replace("Largest", "")
+    assert "steepest" not in text.lower()
+
+
+def test_wide_table_adds_the_record_and_worst_rise(run_cli, greensboro, tmp_path):
+    _, _, _, _, neutrals = greensboro
+    f = _write_sections(tmp_path / "s.toml", neutrals, events=False)
+    narrow = run_cli("screen", f).stdout
+    wide = run_cli("screen", f, "--wide").stdout
+    head = lambda out: next(ln for ln in out.splitlines() if ln.startswith("section"))  # noqa: E731
+    assert "record" not in head(narrow) and "record" in head(wide) and "missing" in wide
+    assert "1990-01-01 – 1990-12-31" in wide
+    assert max(len(ln) for ln in narrow.splitlines()) <= 100

@@ -53,7 +53,9 @@ def test_stability_terminal_and_out(run_cli, tmp_path):
     assert "allowable rise" in res.stdout and "Caution" in res.stdout
     png = out / "stability_curve.png"
     assert png.exists() and png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
-    assert (out / "stability_curve.csv").read_text().startswith("lateral_displacement_mm,rise_K")
+    text = (out / "stability_curve.csv").read_text()
+    assert text.startswith("# command: trackplan stability\n# track: 60E1, steel sleepers, disturbed ballast")
+    assert [ln for ln in text.splitlines() if not ln.startswith("#")][0] == "lateral_displacement_mm,rise_K"
 
 
 def test_stability_us_units_bare_numbers(run_cli):

@@ -303,3 +303,47 @@ def test_target_range_message_says_why():
     msg = str(exc.value)
     assert "-10..60 degC" in msg and "CWR is not set" in msg
     assert math.isclose(d.TARGET_RANGE_C[0], -10.0) and math.isclose(d.TARGET_RANGE_C[1], 60.0)
+
+
+def test_repair_geometry_is_one_geometry():
+    # Centre pull across a 4.5 m removal, 200 m between the fixed points (hand-worked, formulas only).
+    D, R, Tn, Tr, a = 200.0, 4.5, 27.0, 6.0, 0.025
+    alpha = EU.alpha_per_K
+    p = plan(mode="repair", pull="centre", length_m=D, rail_temperature_C=Tr, target_neutral_C=None,
+             current_neutral_C=Tn, removed_length_m=R, mark_spacing_m=25.0)
+    rise = Tn - Tr
+    # the freed rail is what is left between the fixed points once the opening is there
+    assert p.freed_length_m == pytest.approx(D - p.opening_m, rel=1e-12)
+    # the gap the tensor closes is the opening less the closure and weld metal ...
+    closing = p.opening_m - p.closure_length_m - 2 * a
+    assert p.extension_m == pytest.approx(closing, rel=1e-9)
+    # ... which is the stretch of everything between the fixed points: alpha D (T_t - T_r)
+    assert p.extension_m == pytest.approx(alpha * D * rise, rel=1e-9)
+    # the closure rail is stretched with the freed rail: leaving it out would make the
+    # closure alpha R (T_t - T_r) longer (about 1.1 mm here) and the neutral too low
+    assert alpha * R * rise * 1e3 == pytest.approx(1.09, abs=0.01)
+    # marks lie on the freed rail only, the last at its end (each half)
+    assert p.marks[-1][0] == pytest.approx(p.freed_length_m / 2, rel=1e-12)
+    assert all(x <= p.freed_length_m / 2 + 1e-9 for x, _ in p.marks)
+    # the freed halves, the closure and the welds close the gap together (first order in alpha dT)
+    freed_move = 2 * p.marks[-1][1]
+    closure_move = alpha * (p.closure_length_m + 2 * a) * rise
+    assert freed_move + closure_move == pytest.approx(p.extension_m, rel=1e-3)
+
+
+def test_blocking_warnings_make_the_verdict():
+    assert plan().can_be_done_now and plan().blocking == []
+    over = plan(tensor_capacity_N=200e3)
+    assert over.stretch_possible and not over.can_be_done_now
+    assert [c for c, _ in over.blocking] == ["force_beyond_capacity"]
+    mile = plan(length_m=1609.0)
+    assert not mile.can_be_done_now and [c for c, _ in mile.blocking] == ["string_too_long"]
+    hot = plan(rail_temperature_C=35.0)
+    assert not hot.can_be_done_now and "rail_hotter_than_target" in [c for c, _ in hot.blocking]
+    # a what-if reading alone does not stop the work
+    whatif = plan(observed_movement_m=0.030, at_mark_m=400.0)
+    assert "achieved_differs_from_target" in whatif.warning_codes and whatif.can_be_done_now
+    j = over.as_json()
+    assert j["can_be_done_now"] is False and j["blocking"][0]["code"] == "force_beyond_capacity"
+    assert j["blocking"][0]["where"] == "--tensor-capacity"
+    assert "200 kN" in j["blocking"][0]["message"]

@@ -174,7 +174,7 @@ def test_design_extremes_gumbel_30_years():
     js = de.as_json("Somewhere")
     assert set(js) == {"station", "years", "design_basis", "return_period_years", "design_max_rail_temperature_C",
                        "design_min_rail_temperature_C", "max_air_temperature_C", "min_air_temperature_C", "annual",
-                       "warnings"}
+                       "warnings", "design_max_basis", "design_min_basis", "max_return_level_C", "min_return_level_C"}
     assert set(js["annual"][0]) == {"year", "max_rail_temperature_C", "min_rail_temperature_C",
                                     "max_air_temperature_C", "min_air_temperature_C"}
     rl = de.return_levels([2, 50, 100])
@@ -302,3 +302,10 @@ def test_design_never_milder_than_the_record():
     assert sum("is the recorded value" in w for w in de.warnings) == 2
     # the printed intervals are widened to the recorded values: a design value is never outside its interval
     assert de.max_ci_C[0] <= 95.0 <= de.max_ci_C[1] and de.min_ci_C[0] <= -60.0 <= de.min_ci_C[1]
+    # and each design value says what it is, with the return level it replaced
+    assert de.max_basis == de.min_basis == "recorded extreme"
+    assert de.max_return_level_C == pytest.approx(float(de.max_fit.return_level(50)))
+    j = de.as_json()
+    assert j["design_max_basis"] == "recorded extreme" and j["max_return_level_C"] < 95.0
+    plain = ex.design_extremes(_daily(years=30, seed=1), 50, "gumbel", n_boot=50)  # no year beyond its levels
+    assert plain.max_basis == "return level" and plain.design_max_rail_temperature_C == plain.max_return_level_C

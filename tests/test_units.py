@@ -101,3 +101,35 @@ def test_short_length_bare_numbers():
     assert units.parse("40", "short_length", "--observed-movement", default_unit=units.default_unit("short_length", "si")) == pytest.approx(0.040)
     assert units.parse("2", "short_length", "x", default_unit=units.default_unit("short_length", "us")) == pytest.approx(0.0508)
     assert units.parse("3 ft", "short_length", "x") == pytest.approx(0.9144)
+
+
+def test_figures_inside_words_follow_the_unit_system():
+    from trackplan.units import text_in
+
+    t = "rail 41.0 degC above the level 40.2 degC; rise +1.5 K; gap 25 mm at 8 kN/m over 400 m; 3 m/s; 60E1"
+    us = text_in(t, "us")
+    # 41.0 degC = 105.8 degF; 1.5 K = 2.7 delta_degF; 25 mm = 0.98 in; 400 m = 1312 ft (exact definitions)
+    assert "105.8 °F" in us and "+2.7 Δ°F" in us and "1.0 in" in us and "1312 ft" in us
+    assert "3 m/s" in us and "60E1" in us and "degC" not in us and " mm" not in us
+    assert text_in(t, "si") == t.replace("degC", "°C")
+
+
+def test_ranges_inside_words_convert_both_ends():
+    from trackplan.units import text_in
+
+    # -20.1 degC = -4.2 degF, -2.1 degC = 28.2 degF (exact definitions)
+    us = text_in("the interval of the fitted level (-20.1 to -2.1 degC)", "us")
+    assert "(-4.2 to 28.2 °F)" in us
+
+
+def test_csv_precision_by_quantity_and_settings_lines():
+    import pandas as pd
+
+    from trackplan.reports import csv_text
+
+    df = pd.DataFrame({"alpha_per_K": [1.15e-5], "rise_K": [33.123456789], "gap_mm": [14.04754],
+                       "force_per_rail_kN": [611.23456], "ratio": [0.1234567891234], "n": [3]})
+    text = csv_text(df, [("command", "trackplan check"), ("months", "5-9"), ("empty", "")])
+    lines = text.splitlines()
+    assert lines[:2] == ["# command: trackplan check", "# months: 5-9"]  # an empty setting is left out
+    assert lines[3] == "1.15e-05,33.12,14.0,611.23,0.123457,3"  # a coefficient keeps its significant digits

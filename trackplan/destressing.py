@@ -97,6 +97,11 @@ MODES = {
     "heating": "rail heated to the target and clipped there, no tensor",
 }
 
+#: Warnings that stop the work as planned ("can it be done now?" is no while any holds).
+BLOCKING_CODES = ("rail_hotter_than_target", "force_beyond_capacity", "string_too_long", "rail_to_add")
+_WHERE = {"rail_hotter_than_target": "--rail-temp", "force_beyond_capacity": "--tensor-capacity",
+          "string_too_long": "--length", "rail_to_add": "--target"}
+
 #: Pulling arrangements (CLI choices come from the keys).
 PULLS = {
     "end": "the string pulled from one end towards the cut at that end",
@@ -460,6 +465,9 @@ class DestressPlan:
     removed_length_m, opening_m, closure_length_m : float or None
         Repair mode: the removed length (clipped rail), the opening between
         the freed ends, the closure rail length [m].
+    freed_length_m : float or None
+        Repair: the freed rail ``D - G`` [m], marks on it; each pulled length adds its
+        share of the closure rail and welds, all stretched together by the tensor.
     heating_temperature_C : float or None
         Heating mode: the rail temperature to reach [degC].
     observed_movement_m, at_mark_m, achieved_neutral_C : float or None
@@ -504,6 +512,7 @@ class DestressPlan:
     removed_length_m: float | None = None
     opening_m: float | None = None
     closure_length_m: float | None = None
+    freed_length_m: float | None = None
     heating_temperature_C: float | None = None
     observed_movement_m: float | None = None
     at_mark_m: float | None = None
@@ -511,6 +520,16 @@ class DestressPlan:
     expected_movement_at_mark_m: float | None = None
     warnings: list = field(default_factory=list)
     warning_codes: list = field(default_factory=list)
+
+    @property
+    def blocking(self) -> list[tuple[str, str]]:
+        """``(code, message)`` of every warning that stops the work as planned."""
+        return [(c, w) for c, w in zip(self.warning_codes, self.warnings) if c in BLOCKING_CODES]
+
+    @property
+    def can_be_done_now(self) -> bool:
+        """True only when no blocking warning holds (see :data:`BLOCKING_CODES`)."""
+        return not self.blocking
 
     def as_json(self) -> dict:
         """The plan with units in the key names (docs/glossary.md)."""
@@ -534,6 +553,8 @@ class DestressPlan:
             "tensor_capacity_kN": None if self.tensor_capacity_N is None else self.tensor_capacity_N / 1e3,
             "within_capacity": self.within_capacity,
             "stretch_possible": self.stretch_possible,
+            "can_be_done_now": self.can_be_done_now,
+            "blocking": [{"code": c, "message": w, "where": _WHERE.get(c)} for c, w in self.blocking],
             "mark_spacing_m": self.mark_spacing_m,
             "marks": [{"distance_m": d, "movement_mm": m * 1e3} for d, m in self.marks],
             "max_pull_length_m": self.max_pull_length_m,
@@ -552,6 +573,7 @@ class DestressPlan:
             out["removed_length_mm"] = None if self.removed_length_m is None else self.removed_length_m * 1e3
             out["opening_mm"] = self.opening_m * 1e3
             out["closure_length_mm"] = self.closure_length_m * 1e3
+            out["freed_length_m"] = self.freed_length_m
         if self.mode == "heating":
             out["heating_temperature_C"] = self.heating_temperature_C
             out["free_expansion_mm"] = self.extension_m * 1e3
@@ -747,7 +769,10 @@ def plan_destressing(
     # pull at all when the rail is hotter than the target.
     within = None if (tensor_capacity_N is None or mode == "heating" or force < 0) else bool(force <= tensor_capacity_N)
 
-    lp = pulled[0]
+    # marks lie on rail that was there when they were set: in a repair, the freed
+    # rail of each side (the closure rail is stretched with it but carries none)
+    freed = None if opening is None else float(length_m - opening)
+    lp = pulled[0] if freed is None else freed / len(pulled)
     if mark_spacing_m is None:
         spacing = min(50.0, lp)
     else:
@@ -798,7 +823,8 @@ def plan_destressing(
         cut_length_m=float(cut), tensor_force_per_rail_N=force, tensor_capacity_N=tensor_capacity_N,
         within_capacity=within, stretch_possible=stretch_possible, mark_spacing_m=spacing, marks=marks,
         max_pull_length_m=float(max_pull_length_m), E_Pa=E_Pa, alpha_per_K=alpha_per_K, area_m2=area_m2,
-        removed_length_m=removed, opening_m=opening, closure_length_m=closure, heating_temperature_C=heat_C,
+        removed_length_m=removed, opening_m=opening, closure_length_m=closure, freed_length_m=freed,
+        heating_temperature_C=heat_C,
         observed_movement_m=None if observed_movement_m is None else float(observed_movement_m),
         at_mark_m=None if at_mark_m is None else float(at_mark_m), achieved_neutral_C=achieved,
         expected_movement_at_mark_m=expected_at,

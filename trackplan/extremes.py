@@ -596,6 +596,13 @@ class DesignExtremes:
         Observed extremes over the years used [degC].
     max_fit, min_fit : ExtremeFit or None
         The fits (for return-level curves).
+    max_basis, min_basis : str
+        What each design value is: ``"return level"``, ``"recorded extreme"`` (the
+        record holds a value beyond the return level, taken instead), ``"recorded
+        + allowance"`` (short record) or ``"observed extreme"`` (no fit).
+    max_return_level_C, min_return_level_C : float
+        The fitted return levels [degC] (NaN without a fit), printed beside a
+        design value that is not the return level.
     """
 
     design_basis: str
@@ -615,6 +622,10 @@ class DesignExtremes:
     observed_min_rail_temperature_C: float = float("nan")
     max_fit: ExtremeFit | None = field(default=None, repr=False)
     min_fit: ExtremeFit | None = field(default=None, repr=False)
+    max_basis: str = "return level"
+    min_basis: str = "return level"
+    max_return_level_C: float = float("nan")
+    min_return_level_C: float = float("nan")
 
     def return_levels(self, periods_years):
         """Return-level table for plotting: one row per return period.
@@ -653,6 +664,10 @@ class DesignExtremes:
             "station": station,
             "years": int(self.years),
             "design_basis": self.design_basis,
+            "design_max_basis": self.max_basis,
+            "design_min_basis": self.min_basis,
+            "max_return_level_C": self.max_return_level_C if math.isfinite(self.max_return_level_C) else None,
+            "min_return_level_C": self.min_return_level_C if math.isfinite(self.min_return_level_C) else None,
             "return_period_years": float(self.return_period_years),
             "design_max_rail_temperature_C": float(self.design_max_rail_temperature_C),
             "design_min_rail_temperature_C": float(self.design_min_rail_temperature_C),
@@ -689,6 +704,13 @@ def short_record_allowance_K(n_years: int, return_period_years: float, scale_K: 
     """
     y = -math.log(-math.log(1.0 - 1.0 / float(return_period_years)))
     return max(float(scale_K), ALLOWANCE_SCALE_K) * max(y - _EULER_GAMMA - math.log(n_years), 0.0)
+
+
+def _basis(basis: str, value: float, level: float) -> str:
+    """What a design value is, in words (see :class:`DesignExtremes`)."""
+    if basis == "observed+allowance":
+        return "recorded + allowance"
+    return "return level" if value == level else "recorded extreme"
 
 
 def _containing(ci, value: float, label: str, warnings: list):
@@ -787,7 +809,8 @@ def design_extremes(daily, return_period_years: float = 50, distribution: str = 
                                    f"{min_record_years(rp)}", "short_record", "record"))
         return DesignExtremes(design_basis="observed", design_max_rail_temperature_C=obs_max,
                               design_min_rail_temperature_C=obs_min, max_ci_C=None, min_ci_C=None,
-                              warnings=warnings, **common)
+                              warnings=warnings, max_basis="observed extreme", min_basis="observed extreme",
+                              **common)
     need = min_record_years(rp)
     short = n < need
     if short:
@@ -803,8 +826,8 @@ def design_extremes(daily, return_period_years: float = 50, distribution: str = 
                                "the fit is extrapolated far", "extrapolated", "record"))
     fmax = fit_extremes(annual.max_rail_temperature_C, distribution, "max", ci_method, n_boot, seed, ci_level)
     fmin = fit_extremes(annual.min_rail_temperature_C, distribution, "min", ci_method, n_boot, seed + 1, ci_level)
-    dmax = float(fmax.return_level(rp))
-    dmin = float(fmin.return_level(rp))
+    dmax = rl_max = float(fmax.return_level(rp))
+    dmin = rl_min = float(fmin.return_level(rp))
     cmax = fmax.interval(rp)
     cmin = fmin.interval(rp)
     basis = distribution
@@ -850,6 +873,10 @@ def design_extremes(daily, return_period_years: float = 50, distribution: str = 
         warnings=warnings,
         max_fit=fmax,
         min_fit=fmin,
+        max_basis=_basis(basis, dmax, rl_max),
+        min_basis=_basis(basis, dmin, rl_min),
+        max_return_level_C=rl_max,
+        min_return_level_C=rl_min,
         **common,
     )
 

@@ -28,6 +28,7 @@ code                       meaning
 ``quality_flag``           values flagged by the data archive, treated as missing
 ``calendar``               a model calendar (noleap, 360_day) mapped to dates
 ``assumed_input``          an input the record lacks, assumed (clear sky, wind)
+``winter_months``          the months screened are mostly winter at the station
 ``record_note``            anything else about the record
 =========================  =====================================================
 """
@@ -41,7 +42,7 @@ CODES = (
     "gaps", "interpolated", "incomplete_years", "unit_suspect", "impossible_values", "time_zone",
     "ignored_columns", "smoothed_series", "typical_year", "repeated_years", "short_record",
     "observed_extreme_used", "extrapolated", "heavy_tail", "quality_flag", "calendar", "assumed_input",
-    "record_note",
+    "winter_months", "record_note",
 )
 
 

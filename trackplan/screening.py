@@ -119,6 +119,7 @@ import numpy as np
 from trackplan import notices, thermal
 from trackplan.check import DEFAULT_WATCH_FRACTION
 from trackplan.errors import InputError
+from trackplan.seasons import month_list, station_months, winter_warnings
 
 #: Heat levels, lowest first; their codes in the per-day arrays are 1, 2, 3 (0 = none).
 LEVELS = ("watch", "restrict", "critical")
@@ -521,6 +522,9 @@ class ScreenOptions:
         First and last day screened (inclusive); ``None`` = the whole record.
     months : (int, int) or None
         Month range, inclusive, may wrap the year end.
+    season : {"summer", "winter"} or None
+        Instead of ``months``: the season at each station's hemisphere
+        (:func:`trackplan.seasons.season_months`).
     warming_K : float
         Uniform shift of every daily rail maximum and minimum [K] (what-if).
     neutral_override_C : float or None
@@ -535,8 +539,15 @@ class ScreenOptions:
     warming_K: float = 0.0
     neutral_override_C: float | None = None
     watch_fraction: float = DEFAULT_WATCH_FRACTION
+    season: str | None = None
 
     def validate(self) -> "ScreenOptions":
+        from trackplan.seasons import SEASON_MONTHS
+
+        if self.season is not None and self.season not in SEASON_MONTHS:
+            raise InputError(f"unknown season {self.season!r}; accepted: {', '.join(SEASON_MONTHS)}", "--season")
+        if self.season is not None and self.months is not None:
+            raise InputError("give --season or --months, not both", "--season/--months")
         if self.start is not None and self.end is not None and self.start > self.end:
             raise InputError(f"--from {self.start.isoformat()} is after --to {self.end.isoformat()}", "--from/--to")
         if self.months is not None and any(not 1 <= m <= 12 for m in self.months):
@@ -636,6 +647,7 @@ class SectionScreen:
     cold_limit_rise_K: float
     disturbed_days: int
     station: str
+    months: list = field(default_factory=lambda: list(range(1, 13)))  # month numbers screened
     notes: list = field(default_factory=list)
     warnings: list = field(default_factory=list)
     climate_path: object = None  # pathlib.Path of the record
@@ -757,6 +769,7 @@ class _RecordView:
     inputs: dict  # how the record was read: tz, time_step
     groups: tuple  # numpy.unique(years, return_inverse=True)
     season_days: np.ndarray  # days of each unique year's season
+    months: tuple | None = None  # month range screened (None: all)
 
 
 def _critical_of(stab) -> tuple[float, str]:
@@ -787,10 +800,10 @@ class Screener:
         self._resistance: dict = {}
 
     # -- caches ---------------------------------------------------------
-    def _calendar(self, daily, where: str):
+    def _calendar(self, daily, where: str, months=None):
         """Window of a record's dates (shared by every orientation of the record)."""
         idx = daily.index
-        ckey = (len(idx), idx[0] if len(idx) else None, idx[-1] if len(idx) else None)
+        ckey = (len(idx), idx[0] if len(idx) else None, idx[-1] if len(idx) else None, months)
         hit = self._calendars.get(ckey)
         if hit is not None and not (hit[0] is idx or hit[0].equals(idx)):
             hit = None
@@ -807,16 +820,16 @@ class Screener:
             if o.end is not None:
                 sel &= dates_all <= np.datetime64(o.end, "D")
             y, m = _ymd(dates_all)
-            sel &= month_selection(m, o.months)
+            sel &= month_selection(m, months)
             if not sel.any():
                 raise InputError(
                     f"nothing to screen: the climate record covers {first.isoformat()} to {last.isoformat()}"
-                    + ("" if o.months is None else f", months {o.months[0]}-{o.months[1]}")
+                    + ("" if months is None else f", months {months[0]}-{months[1]}")
                     + "; widen --from/--to or --months", "--from/--to")
-            sy = season_year(y[sel], m[sel], o.months)
+            sy = season_year(y[sel], m[sel], months)
             groups = np.unique(sy, return_inverse=True)
             self._calendars[ckey] = (idx, sel, dates_all[sel], (dates_all[sel] - _EPOCH).astype(np.int64), sy,
-                                     groups, season_lengths(groups[0], o.months), first, last)
+                                     groups, season_lengths(groups[0], months), first, last)
         return self._calendars[ckey][1:]
 
     def _view(self, section) -> _RecordView:
@@ -824,7 +837,11 @@ class Screener:
         if key not in self._views:
             o = self.options
             where = f"{section.file.name} [sections.{section.id}]"
-            sel, dates, day, sy, groups, season_days, first, last = self._calendar(daily, where)
+            lat = key[1] if len(key) > 1 and isinstance(key[1], float) else section.latitude_deg
+            months = station_months(o.months, o.season, lat)
+            sel, dates, day, sy, groups, season_days, first, last = self._calendar(daily, where, months)
+            station = str(meta.get("station") or section.climate_path.stem)
+            season_warn = () if o.season is not None else winter_warnings(months, lat, station)
             self._views[key] = _RecordView(
                 dates=dates,
                 day=day,
@@ -834,11 +851,12 @@ class Screener:
                 record_first=first,
                 record_last=last,
                 typical_year=bool(meta.get("typical_year")),
-                station=str(meta.get("station") or section.climate_path.stem),
-                warnings=tuple(meta.get("warnings", [])) + tuple(daily.attrs.get("warnings", [])),
+                station=station,
+                warnings=tuple(meta.get("warnings", [])) + tuple(daily.attrs.get("warnings", [])) + season_warn,
                 inputs={"tz": meta.get("tz"), "time_step": meta.get("time_step")},
                 groups=groups,
                 season_days=season_days,
+                months=months,
             )
         return self._views[key]
 
@@ -943,6 +961,7 @@ class Screener:
             cold_limit_rise_K=cold_limit,
             disturbed_days=disturbed_days,
             station=view.station,
+            months=month_list(view.months),
             notes=notes,
             warnings=list(view.warnings),
             climate_path=section.climate_path,
@@ -1046,6 +1065,7 @@ def section_json(s: SectionScreen) -> dict:
         "id": s.id,
         "name": s.name,
         "station": s.station,
+        "months": list(s.months),
         "first_date": s.first_date.isoformat(),
         "last_date": s.last_date.isoformat(),
         "screened_days": s.screened_days,
@@ -1092,6 +1112,7 @@ def options_json(o: ScreenOptions) -> dict:
         "from_date": o.start.isoformat() if o.start else None,
         "to_date": o.end.isoformat() if o.end else None,
         "months": list(o.months) if o.months else None,
+        "season": o.season,
         "warming_K": o.warming_K,
         "neutral_override_C": o.neutral_override_C,
         "watch_fraction": o.watch_fraction,

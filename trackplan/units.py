@@ -523,6 +523,11 @@ def number(value_si: float | None, kind: str, system: str = "si", digits: int = 
     return f"{v:.{digits}f}"
 
 
+def header_lines(name: str, kind: str, system: str = "si") -> str:
+    """Column header on two lines, the unit below (narrow tables): ``"per rail\n(kN)"``."""
+    return f"{name}\n({label(display_unit(kind, system))})"
+
+
 def header(name: str, kind: str, system: str = "si") -> str:
     """Column header with the display unit, e.g. ``"force per rail (kN)"``
     (parentheses, not brackets, which rich would read as markup)."""
@@ -552,3 +557,48 @@ class Phrase:
 
     def __str__(self) -> str:
         return self.text("si")
+
+
+# --------------------------------------------------------------------------
+# Figures inside words made in SI (warnings and notes of the readers and models)
+# --------------------------------------------------------------------------
+
+#: SI unit as written in a message -> (display kind, SI factor, extra digits in US units).
+_TEXT_UNITS = {
+    "degC": ("temperature", 1.0, 0), "°C": ("temperature", 1.0, 0),
+    "K": ("temperature_difference", 1.0, 0),
+    "mm": ("short_length", 1e-3, 1), "m": ("length", 1.0, 0), "km": ("length", 1e3, 0),
+    "kN": ("force", 1e3, 1), "MPa": ("stress", 1e6, 1), "kN/m": ("force_per_length", 1e3, 0),
+}
+_RANGE_RE = re.compile(r"(?<![\w.])([-+]?\d+(?:\.(\d+))?) to ([-+]?\d+(?:\.(\d+))?) ?(degC|°C|K|mm|km|m|kN|MPa)"
+                       r"(?![\w/²³⁴*])")
+_TEXT_RE = re.compile(r"(?<![\w.])([-+]?\d+(?:\.(\d+))?) ?(degC|°C|K|mm|km|m|kN/m|kN|MPa)(?![\w/²³⁴*])")
+
+
+def text_in(text: str, system: str = "si") -> str:
+    """Words with SI figures (``"rail 41.0 degC, gap 25 mm"``) with every figure in
+    ``system``; unchanged for ``si`` (``degC`` shown as ``°C``).
+
+    For messages made before the unit system was known (readers' and models'
+    warnings and notes); a figure keeps its decimals, one more for the coarser
+    US units of short lengths, forces and stresses.
+    """
+    def sub_range(m: re.Match) -> str:
+        kind, factor, extra = _TEXT_UNITS[m.group(5)]
+        digits = max(len(m.group(2) or ""), len(m.group(4) or "")) + extra
+        lo = number(float(m.group(1)) * factor, kind, system, digits)
+        return f"{lo} to {fmt(float(m.group(3)) * factor, kind, system, digits)}"
+
+    def sub(m: re.Match) -> str:
+        unit = m.group(3)
+        kind, factor, extra = _TEXT_UNITS[unit]
+        digits = len(m.group(2) or "") + (extra if system == "us" else 0)
+        value = float(m.group(1)) * factor
+        if system == "si":
+            return m.group(0).replace("degC", "°C")
+        sign = "+" if m.group(1).startswith("+") and value >= 0 else ""
+        return sign + fmt(value, kind, system, digits)
+
+    if system != "si":  # "A to B degC": the unit is written once, after B
+        text = _RANGE_RE.sub(lambda m: f"{sub_range(m)}", text)
+    return _TEXT_RE.sub(sub, text)

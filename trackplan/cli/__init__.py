@@ -52,6 +52,11 @@ def main() -> None:
     ``trackplan --help`` (or no subcommand) loads them all to list them.
     """
     args = sys.argv[1:]
+    if args == ["--version"]:  # no command module needed
+        from trackplan import __version__
+
+        print(f"trackplan {__version__}")
+        return
     first = next((a for a in args if not a.startswith("-")), None)
     app = load_commands([first] if first in COMMAND_MODULES else None)
     app(prog_name="trackplan")

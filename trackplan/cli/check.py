@@ -10,23 +10,28 @@ import typer
 from rich.markup import escape
 from rich.table import Table
 
-from trackplan import CAUTION, notices, units
+from trackplan import CAUTION, __version__, notices, units
 from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
-                                  command, console, emit_json, print_caution)
+                                  command, console, emit_json, print_caution, wide_console)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
-                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, print_records,
+                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, network_name, print_data_warnings,
+                                   print_records,
                                    report_problems)
 
 _STYLE = {"act": "bold red", "watch": "yellow", "ok": "green"}
 
 
 def check_json(a) -> dict:
+    from trackplan.actions import section_action
+
     c = a.check
+    action = section_action(a)
     return {
         "id": a.section.id,
         "name": a.section.name,
         "verdict": c.verdict,
         "reasons": c.reasons,
+        "action": None if action is None else str(action),
         "current_neutral_temperature_C": c.current_neutral_temperature_C,
         "recorded_neutral_temperature_C": c.cold_neutral_temperature_C,
         "neutral_entry_id": a.section.neutral_entry_id,
@@ -46,41 +51,63 @@ def check_json(a) -> dict:
     }
 
 
-def print_checks(results, s: str) -> None:
-    table = Table(title="Pre-summer check (worst first)")
-    heads = [("section", "left"), ("verdict", "left"),
-             (units.header("current neutral", "temperature", s), "right"),
-             (units.header("design max", "temperature", s), "right"),
-             (units.header("rise / allowable", "temperature_difference", s), "right"),
-             (units.header("margin", "temperature_difference", s), "right"),
-             (units.header("compr./rail", "force", s), "right"),
-             (units.header("design min", "temperature", s), "right"),
+def print_checks(results, s: str, wide: bool = False) -> None:
+    """The check table (fits 100 columns; --wide adds forces and the target), then
+    each section's reasons and action."""
+    from trackplan.actions import section_action
+
+    if not results:
+        console.print("No section could be checked (see the problems below).", highlight=False)
+        return
+    tu = units.label(units.display_unit("temperature", s))
+    du = units.label(units.display_unit("temperature_difference", s))
+    table = Table(title=f"Pre-summer check, worst first (temperatures in {tu}, rises in {du})")
+    heads = [("section", "left"), ("verdict", "left"), ("neutral now", "right"), ("design max", "right"),
+             ("rise", "right"), ("allowable", "right"), ("margin", "right"), ("design min", "right"),
              (units.header("break gap", "short_length", s), "right")]
+    if wide:
+        heads += [(units.header("compr. per rail", "force", s), "right"),
+                  (units.header("tension per rail", "force", s), "right"), ("target neutral", "right")]
     for h, j in heads:
-        table.add_column(h, justify=j, overflow="fold")
+        table.add_column(h, justify=j, no_wrap=False)
     us = s == "us"
     for a in results:
         c = a.check
-        table.add_row(
+        row = [
             a.section.id, f"[{_STYLE[c.verdict]}]{c.verdict}[/]",
             units.number(c.current_neutral_temperature_C, "temperature", s),
             units.number(c.design_max_rail_temperature_C, "temperature", s),
-            f"{units.number(c.heat_rise_K, 'temperature_difference', s)} / "
-            f"{units.number(c.allowable_rise_K, 'temperature_difference', s)}",
+            units.number(c.heat_rise_K, "temperature_difference", s),
+            units.number(c.allowable_rise_K, "temperature_difference", s),
             units.number(c.heat_margin_K, "temperature_difference", s),
-            units.number(c.max_compression_force_per_rail_N, "force", s, 1 if us else 0),
             units.number(c.design_min_rail_temperature_C, "temperature", s),
             units.number(c.pull_apart_gap_m, "short_length", s, 2 if us else 0),
-        )
-    console.print(table)
+        ]
+        if wide:
+            row += [units.number(c.max_compression_force_per_rail_N, "force", s, 1 if us else 0),
+                    units.number(-c.max_tension_force_per_rail_N, "force", s, 1 if us else 0),
+                    units.number(a.target.target_neutral_temperature_C, "temperature", s)]
+        table.add_row(*row)
+    (wide_console() if wide else console).print(table)
     for a in results:
         c = a.check
         console.print(f"[{_STYLE[c.verdict]}]{a.section.id} {c.verdict}[/]: " + "; ".join(escape(r) for r in c.reasons_in(s)),
                       highlight=False)
+        action = section_action(a)
+        if action is not None:
+            console.print(f"  [bold]action:[/] {escape(action.text(s))}", highlight=False)
+    print_data_warnings(results, s)
 
 
-def write_check_outputs(out: Path, results, sections_file: Path, system: str) -> list[Path]:
+def check_settings(return_period, distribution: str, system: str) -> list[tuple[str, str]]:
+    """The settings a check was made with, as (name, value) pairs for the output files."""
+    return [("return period", "each section's" if return_period is None else f"{return_period:g} years"),
+            ("distribution", distribution), ("units", system)]
+
+
+def write_check_outputs(out: Path, results, sections_file: Path, system: str, settings=None) -> list[Path]:
     """CSV of all figures, a PNG force envelope per section, one HTML summary."""
+    settings = check_settings(None, "gumbel", system) if settings is None else settings
     import pandas as pd
 
     from trackplan import reports
@@ -89,16 +116,19 @@ def write_check_outputs(out: Path, results, sections_file: Path, system: str) ->
     inputs = [sections_file] + [a.section.climate_path for a in results]
     out = reports.prepare_out_dir(out, inputs, planned=["check.csv", "check_summary.html"] +
                                   [f"force_envelope_{a.section.id}.png" for a in results])
-    written = [reports.write_csv(out / "check.csv", pd.DataFrame(reports.check_rows(results)), inputs)]
+    written = [reports.write_csv(out / "check.csv", pd.DataFrame(reports.check_rows(results)), inputs,
+                                 settings=[("command", "trackplan check"), ("section file", str(sections_file)),
+                                           *settings])]
     pngs = {}
     for a in results:
         png = reports.figure_png_bytes(reports.force_envelope_figure(a, system))
         pngs[a.section.id] = png
         written.append(reports.write_atomic(out / f"force_envelope_{a.section.id}.png",
                                             lambda p, b=png: p.write_bytes(b), inputs))
-    html = reports.check_html(results, pngs, CAUTION, system=system,
+    html = reports.check_html(results, pngs, CAUTION, system=system, network=network_name(sections_file),
                               generated=f"Section file {sections_file.name}; generated {dt.date.today().isoformat()} "
-                                        "by trackplan check.")
+                                        f"by trackplan {__version__} check.",
+                              settings="Settings: " + ", ".join(f"{k} {v}" for k, v in settings) + ".")
     written.append(reports.write_text(out / "check_summary.html", html, inputs))
     return written
 
@@ -116,6 +146,7 @@ def check_cmd(
     strict: bool = STRICT_OPTION,
     register: Optional[Path] = REGISTER_OPTION,
     system: UnitSystem = UNITS_OPTION,
+    wide: bool = typer.Option(False, "--wide", help="Add the forces per rail and the target neutral temperature to the table."),
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Pre-summer check: for every section, is its current neutral temperature safe?
@@ -136,12 +167,13 @@ def check_cmd(
     results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution, register,
                                            priority, column=column, tz=tz, allow_short=allow_short)
     results = sorted(results, key=lambda a: rank_key(a.check))
-    written = write_check_outputs(out, results, sections_file, system.value) if out is not None else []
+    settings = check_settings(return_period, distribution, system.value)
+    written = write_check_outputs(out, results, sections_file, system.value, settings) if out is not None else []
     if as_json:
         emit_json({"sections": [check_json(a) for a in results], "problems": [str(p) for p in problems],
                    "files": [str(p) for p in written], "caution": CAUTION})
     else:
-        print_checks(results, system.value)
+        print_checks(results, system.value, wide)
         print_records([(a.section.climate_path.name, a.climate.time_step, a.climate.tz, a.climate.warnings)
                        for a in results])
         if register is not None:

@@ -17,12 +17,43 @@ from pathlib import Path
 
 import typer
 from rich.console import Console
+from typer.core import TyperGroup
 
 from trackplan import CAUTION, units
 from trackplan.errors import InputError
 
+class _OneLineErrors(TyperGroup):
+    """The command group, printing click's usage errors (unknown option, bad choice,
+    missing argument) as the tool's own one-line ``error:`` messages, exit code 2."""
+
+    def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
+        if not standalone_mode:
+            return super().main(args=args, prog_name=prog_name, complete_var=complete_var,
+                                standalone_mode=False, **extra)
+        import click
+
+        try:
+            rv = super().main(args=args, prog_name=prog_name, complete_var=complete_var,
+                              standalone_mode=False, **extra)
+        except click.exceptions.NoArgsIsHelpError as exc:
+            sys.exit(exc.exit_code)  # the help was printed when the error was made
+        except click.exceptions.UsageError as exc:
+            ctx = getattr(exc, "ctx", None)
+            path = ctx.command_path if ctx is not None else "trackplan"
+            print_error(InputError(f"{exc.format_message().rstrip('.')} (see `{path} --help`)"))
+            sys.exit(2)
+        except click.ClickException as exc:
+            print_error(InputError(exc.format_message()))
+            sys.exit(exc.exit_code)
+        except click.Abort:
+            err_console.print("Aborted.", highlight=False)
+            sys.exit(1)
+        sys.exit(rv if isinstance(rv, int) else 0)
+
+
 app = typer.Typer(
     name="trackplan",
+    cls=_OneLineErrors,
     help=(
         "Thermal stress planning for continuous welded rail: rail forces at the temperature "
         "extremes, the neutral temperature to install, risk days in a temperature history, "
@@ -37,14 +68,44 @@ app = typer.Typer(
     context_settings={"help_option_names": ["-h", "--help"]},
 )
 
-# Piped output (files, scripts) gets a fixed width wide enough for the tables.
+def _print_version(value: bool) -> None:
+    if value:
+        from trackplan import __version__
+
+        typer.echo(f"trackplan {__version__}")
+        raise typer.Exit(0)
+
+
 @app.callback()
-def _group() -> None:
+def _group(
+    version: bool = typer.Option(False, "--version", is_eager=True, callback=_print_version,
+                                 help="Print the version of trackplan and exit."),
+) -> None:
     """Thermal stress planning for continuous welded rail (see the commands below)."""
 
 
-console = Console(width=None if sys.stdout.isatty() else 120)
-err_console = Console(stderr=True, width=None if sys.stderr.isatty() else 120)
+#: Width of piped output (files, scripts) when COLUMNS is not set; the tables are
+#: designed to fit it.
+PIPED_WIDTH = 100
+
+#: Width of the --wide tables (wider than the terminal if need be: they are asked for).
+WIDE_WIDTH = 150
+
+
+def _width(stream) -> int | None:
+    """None (the terminal's width, or COLUMNS when set: rich reads it) or the piped width."""
+    import os
+
+    return None if stream.isatty() or os.environ.get("COLUMNS", "").strip().isdigit() else PIPED_WIDTH
+
+
+console = Console(width=_width(sys.stdout))
+
+
+def wide_console() -> Console:
+    """A console for the --wide tables: at least :data:`WIDE_WIDTH` columns (they are asked for)."""
+    return Console(width=max(console.width, WIDE_WIDTH))
+err_console = Console(stderr=True, width=_width(sys.stderr))
 
 
 class UnitSystem(str, Enum):
@@ -55,7 +116,7 @@ class UnitSystem(str, Enum):
 
 
 UNITS_OPTION = typer.Option(
-    UnitSystem.si, "--units", help="Units for printing and for bare numbers: si (degC, m, kN, MPa) or us (degF, ft, kip, ksi)."
+    UnitSystem.si, "--units", case_sensitive=False, help="Units for printing and for bare numbers: si (degC, m, kN, MPa) or us (degF, ft, kip, ksi)."
 )
 JSON_OPTION = typer.Option(False, "--json", help="Print one JSON object (SI units, unit in every key) and nothing else.")
 COLUMN_OPTION = typer.Option(
@@ -146,6 +207,23 @@ def parse_option(text: str | None, kind: str, option: str, system: UnitSystem | 
     sysname = system.value if isinstance(system, Enum) else system
     parsed = units.parse_with_unit(text, kind, option, default_unit=units.default_unit(kind, sysname))
     return parsed.value, parsed.echo
+
+
+def phase(text: str) -> None:
+    """Say on an interactive terminal which phase of a long command is running (stderr)."""
+    if progress_enabled():
+        err_console.print(f"[dim]… {text}[/]", highlight=False)
+
+
+def given_text(echo: str, value_si: float, kind: str, system, digits: int = 1) -> str:
+    """A value as printed, with the text it was given as when that was in another unit
+    (``'1320 ft = 402.3 m'``; ``'400.0 m'``, not ``'400 m = 400.0 m'``)."""
+    s = system.value if isinstance(system, Enum) else system
+    shown = units.fmt(value_si, kind, s, digits)
+    unit = echo.split(" ", 1)[1] if " " in echo else ""
+    if units.label(unit) == units.label(units.display_unit(kind, s)):
+        return shown
+    return f"{echo} = {shown}"
 
 
 def progress_enabled() -> bool:

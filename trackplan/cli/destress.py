@@ -15,6 +15,7 @@ from typing import Optional
 
 import typer
 from rich.table import Table
+from rich.text import Text
 
 from trackplan import CAUTION, destressing, rails, units
 from trackplan.cli.common import (
@@ -24,6 +25,7 @@ from trackplan.cli.common import (
     command,
     console,
     emit_json,
+    given_text,
     parse_option,
     print_caution,
 )
@@ -60,6 +62,20 @@ MODE_LABEL = {
     "heating": "heating to the target (no tensor)",
 }
 PULL_LABEL = {"end": "from one end", "centre": "both halves towards a central cut"}
+
+#: Defaults with --units us, as North American practice writes them (not converted
+#: SI values). All from memory of common practice: confirm them in your railway's
+#: CWR procedure and the weld kit's instructions.
+US_DEFAULTS = {
+    # standard-gap thermite (aluminothermic) kits: a 1 in gap between the rail ends
+    "weld": destressing.WeldAllowance(
+        "aluminothermic", 1.0 * 0.0254, "aluminothermic (thermite) weld, standard 1 in gap",
+        "(from memory) North American practice: standard-gap thermite kits 1 in; confirm with the kit instructions"),
+    # longest length one tensor set pulls: a quarter mile, as commonly written
+    "max_pull_m": 1320.0 * 0.3048,
+    # reference marks every 100 ft
+    "marks_m": 100.0 * 0.3048,
+}
 
 
 def read_job(path: Path) -> dict:
@@ -160,11 +176,11 @@ def destress_cmd(
         ) + " (values from memory: confirm them), or a value per weld with its unit: '30 mm' gap, '-35 mm' consumed. "
         "Default aluminothermic."
     ),
-    marks: Optional[str] = typer.Option(None, "--marks", help="Reference mark spacing, e.g. '50 m' (default 50 m)."),
+    marks: Optional[str] = typer.Option(None, "--marks", help="Reference mark spacing, e.g. '50 m' (default 50 m, or 100 ft with --units us)."),
     pull: Optional[str] = typer.Option(None, "--pull", help="end (from one end) or centre (both halves towards a central cut). Default end; centre for repair."),
     tensor_capacity: Optional[str] = typer.Option(None, "--tensor-capacity", help="Tensor capacity per rail, e.g. '600 kN' or '130 kip'."),
     max_pull: Optional[str] = typer.Option(
-        None, "--max-pull", help="Longest length one tensor set pulls (default 400 m, from memory of common practice; set your railway's figure)."
+        None, "--max-pull", help="Longest length one tensor set pulls (default 400 m, or 1320 ft with --units us; from memory of common practice: set your railway's figure)."
     ),
     observed_movement: Optional[str] = typer.Option(
         None, "--observed-movement", help="What-if: movement observed at a mark, e.g. '40 mm' (with --at-mark)."
@@ -218,6 +234,9 @@ def destress_cmd(
     site_name = _opt(site, "site", None, job_data, system)[0]
     weld_text = _opt(weld, "weld", None, job_data, system)[0]
     w = destressing.weld_allowance(weld_text) if weld_text is not None else None
+    if s == "us":  # US practice values as defaults, not converted SI ones
+        w = US_DEFAULTS["weld"] if w is None else w
+        mpl = US_DEFAULTS["max_pull_m"] if mpl is None else mpl
 
     mode_name = _opt(mode, "mode", None, job_data, system)[0]
     if mode_name is None:
@@ -228,6 +247,9 @@ def destress_cmd(
     pull_name = {"center": "centre", "both": "centre", "one-end": "end"}.get(pull_name, pull_name)
     if mode_name != "repair" and (rem is not None or opn is not None):
         raise InputError(f"--removed/--opening belong to repair mode, not {mode_name}", "--mode")
+    if s == "us" and spacing is None and mode_name != "repair" and \
+            US_DEFAULTS["marks_m"] <= L / (2 if pull_name == "centre" else 1):
+        spacing = US_DEFAULTS["marks_m"]
 
     plan = destressing.plan_destressing(
         length_m=L,
@@ -257,19 +279,22 @@ def destress_cmd(
                   f"alpha = {units.fmt(st.alpha_per_K, 'expansion', s, 8)}"),
         ("Mode", MODE_LABEL[plan.mode]),
         ("Pull", PULL_LABEL[plan.pull] + (f", {len(plan.pulled_lengths_m)} × {units.fmt(plan.pulled_lengths_m[0], 'length', s, 1)}"
-                                          if plan.pull == "centre" else "")),
-        ("String length between fixed points", f"{echo_L} = {units.fmt(plan.length_m, 'length', s, 1)}"),
-        ("Rail temperature (measured)", f"{echo_tr} = {units.fmt(plan.rail_temperature_C, 'temperature', s)}"),
-        ("Target neutral temperature", (f"{echo_tt} = " if echo_tt else "original, ") + units.fmt(plan.target_neutral_C, "temperature", s)),
+                                          if plan.pull == "centre" else "")
+         + (f" (freed rail {units.fmt(plan.freed_length_m / len(plan.pulled_lengths_m), 'length', s, 2)} and "
+            f"{'half ' if plan.pull == 'centre' else ''}the closure rail, stretched together)"
+            if plan.freed_length_m is not None else "")),
+        ("String length between fixed points", _given(echo_L, plan.length_m, "length", s, 1)),
+        ("Rail temperature (measured)", _given(echo_tr, plan.rail_temperature_C, "temperature", s)),
+        ("Target neutral temperature", _given(echo_tt, plan.target_neutral_C, "temperature", s) if echo_tt else "original, " + units.fmt(plan.target_neutral_C, "temperature", s)),
     ]
     if plan.current_neutral_C is not None:
         lab = "Current neutral temperature" if plan.mode == "restrained" else "Neutral before the break"
-        inputs.append((lab, f"{echo_nc} = {units.fmt(plan.current_neutral_C, 'temperature', s)}"))
+        inputs.append((lab, _given(echo_nc, plan.current_neutral_C, "temperature", s)))
     if plan.mode == "repair":
         if plan.removed_length_m is not None:
-            inputs.append(("Removed (between cuts, rail clipped)", f"{echo_rem} = {units.fmt(plan.removed_length_m, 'length', s, 3)}"))
+            inputs.append(("Removed (between cuts, rail clipped)", _given(echo_rem, plan.removed_length_m, "length", s, 3)))
         else:
-            inputs.append(("Opening (freed ends, measured)", f"{echo_opn} = {units.fmt(plan.opening_m, 'length', s, 3)}"))
+            inputs.append(("Opening (freed ends, measured)", _given(echo_opn, plan.opening_m, "length", s, 3)))
     inputs += [
         ("Weld", f"{plan.weld_name}, {_mm(plan.weld_allowance_m, s)} per weld "
                  f"({'gap filled' if plan.weld_allowance_m >= 0 else 'rail consumed'}), {plan.n_welds} weld(s)"),
@@ -297,7 +322,8 @@ def destress_cmd(
     t_fig.add_column("figure")
     t_fig.add_column("value", justify="right")
     for k, v in figures:
-        t_fig.add_row(k, v)
+        style = "bold red" if v.startswith("NO") else ("bold" if _is_key(k) else "")
+        t_fig.add_row(Text(k, style=style), Text(v, style=style))
     console.print(t_fig)
     if plan.stretch_possible or plan.mode == "repair":
         console.print(_marks_table(plan, s))
@@ -324,6 +350,9 @@ def destress_cmd(
     print_caution()
 
 
+_given = given_text
+
+
 def _out_dir(reports, out: Path, inputs) -> Path:
     """The output folder, created by :func:`trackplan.reports.prepare_out_dir`."""
     return reports.prepare_out_dir(out, inputs)
@@ -345,7 +374,8 @@ def _figures(p: destressing.DestressPlan, s: str) -> list[tuple[str, str]]:
         rows.append(("Free expansion to allow", _mm(p.extension_m, s)))
     else:
         each = f" ({len(p.pulled_lengths_m)} × {_mm(p.extension_m / len(p.pulled_lengths_m), s)})" if len(p.pulled_lengths_m) > 1 else ""
-        rows.append(("Extension (closing of the rail ends)", _mm(p.extension_m, s) + each))
+        what = "closing of the last weld gap" if p.mode == "repair" else "closing of the rail ends"
+        rows.append((f"Extension ({what})", _mm(p.extension_m, s) + each))
     rows.append((f"Weld allowance ({p.n_welds} × {_mm(p.weld_allowance_m, s)})", _mm(p.n_welds * p.weld_allowance_m, s)))
     if p.mode == "repair":
         rows.append(("Opening between the freed rail ends", _mm(p.opening_m, s)))
@@ -362,10 +392,35 @@ def _figures(p: destressing.DestressPlan, s: str) -> list[tuple[str, str]]:
         if p.tensor_capacity_N:
             cap = f" of {units.fmt(p.tensor_capacity_N, 'force', s, 0)} " + ("(within capacity)" if p.within_capacity else "(BEYOND CAPACITY)")
         rows.append(("Tensor pull per rail", units.fmt(p.tensor_force_per_rail_N, "force", s, 1) + cap))
-    rows.append(("Can be done now", "yes" if p.stretch_possible else "NO: rail hotter than target"))
+    rows.append(("Can be done now", verdict_text(p)))
     if p.achieved_neutral_C is not None:
         rows.append(("Neutral reached (what-if)", T(p.achieved_neutral_C)))
     return rows
+
+
+#: Short reasons for the verdict line, one per blocking warning code.
+_BLOCKING_SHORT = {
+    "rail_hotter_than_target": "rail hotter than target",
+    "force_beyond_capacity": "pull beyond tensor capacity",
+    "string_too_long": "pulled length too long for one tensor set",
+    "rail_to_add": "rail must be added (re-plan as a repair)",
+}
+
+
+#: Figures the crew acts on, printed in bold.
+_KEY_FIGURES = ("Length to cut out", "Rail to add", "Closure rail length to cut", "Tensor pull per rail",
+                "Heat the rail to", "Can be done now")
+
+
+def _is_key(label: str) -> bool:
+    return label.startswith(_KEY_FIGURES)
+
+
+def verdict_text(p: destressing.DestressPlan) -> str:
+    """'yes', or 'NO: ...' naming every blocking warning (the warnings below say what to do)."""
+    if p.can_be_done_now:
+        return "yes"
+    return "NO: " + "; ".join(_BLOCKING_SHORT.get(c, c) for c, _ in p.blocking) + " (see the warnings)"
 
 
 def _observed_columns(p: destressing.DestressPlan) -> list[str]:
@@ -409,6 +464,8 @@ td.num { text-align: right; white-space: nowrap; }
 .caution { font-size: 8pt; margin-top: 2mm; }
 .blank { height: 6.5mm; }
 .small { font-size: 8pt; }
+tr.key th, tr.key td { font-weight: bold; font-size: 10.5pt; }
+table.fig th { width: 50%; } table.fig td.num { white-space: normal; } tr.no td { color: #b00000; }
 @media print { body { max-width: none; } .warn { -webkit-print-color-adjust: exact; } }
 """
 
@@ -425,7 +482,9 @@ def crew_sheet_html(p: destressing.DestressPlan, inputs, figures, s: str) -> str
     """
     e = html.escape
     rows_in = "".join(f"<tr><th>{e(k)}</th><td>{e(v)}</td></tr>" for k, v in inputs if v)
-    rows_fig = "".join(f"<tr><th>{e(k)}</th><td class='num'>{e(v)}</td></tr>" for k, v in figures)
+    rows_fig = "".join(
+        f"<tr class='{'key' if _is_key(k) else ''}{' no' if v.startswith('NO') else ''}'><th>{e(k)}</th>"
+        f"<td class='num'>{e(v)}</td></tr>" for k, v in figures)
     marks = list(enumerate(p.marks))
     ncol = min(3, -(-len(marks) // _MARK_ROWS))
     per = -(-len(marks) // ncol)
@@ -467,7 +526,7 @@ def crew_sheet_html(p: destressing.DestressPlan, inputs, figures, s: str) -> str
 <h1>Destressing crew sheet: {e(MODE_LABEL[p.mode])}</h1>
 <p class="small">Prepared {date.today().isoformat()} with trackplan. Figures in {'SI' if s == 'si' else 'US customary'} units.</p>
 <div class="cols"><div><h2>Inputs</h2><table>{rows_in}</table></div>
-<div><h2>Figures</h2><table>{rows_fig}</table></div></div>
+<div><h2>Figures</h2><table class="fig">{rows_fig}</table></div></div>
 {warn}
 <h2>Reference marks{e(halves)}: distance from the fixed end towards the cut, expected movement</h2>
 <div class="cols">{''.join(blocks)}</div>

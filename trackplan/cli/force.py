@@ -16,6 +16,7 @@ from trackplan.cli.common import (
     command,
     console,
     emit_json,
+    given_text,
     parse_option,
     print_caution,
 )
@@ -128,27 +129,27 @@ def force_cmd(
     console.print(
         f"[bold]{profile.name}[/]  A = {units.fmt(profile.area_m2, 'area', s, 2)}, "
         f"E = {units.fmt(st.E_Pa, 'modulus', s, 1 if s == 'si' else 0)}, alpha = {units.fmt(st.alpha_per_K, 'expansion', s, 8)} "
-        f"({st.name}), neutral {echo_n} = {units.fmt(t_n, 'temperature', s)}",
+        f"({st.name}), neutral {given_text(echo_n, t_n, 'temperature', s)}",
         highlight=False,
     )
     table = Table(title="Force in restrained rail (compression +, tension −)")
     us = s == "us"
     cols = [
-        (units.header("rail temp.", "temperature", s), "temperature", "rail_temperature_C", 1, 1),
-        (units.header("rise", "temperature_difference", s), "temperature_difference", "rise_K", 1, 1),
-        (units.header("stress", "stress", s), "stress", "stress_MPa", 1e6, 2 if us else 1),
-        (units.header("force/rail", "force", s), "force", "force_per_rail_kN", 1e3, 1 if us else 0),
-        (units.header("force/track", "force", s), "force", "force_per_track_kN", 1e3, 1 if us else 0),
+        (units.header_lines("rail", "temperature", s), "temperature", "rail_temperature_C", 1, 1),
+        (units.header_lines("rise", "temperature_difference", s), "temperature_difference", "rise_K", 1, 1),
+        (units.header_lines("stress", "stress", s), "stress", "stress_MPa", 1e6, 2 if us else 1),
+        (units.header_lines("per rail", "force", s), "force", "force_per_rail_kN", 1e3, 1 if us else 0),
+        (units.header_lines("per track", "force", s), "force", "force_per_track_kN", 1e3, 1 if us else 0),
     ]
     if r is not None:
         cols += [
-            (units.header("breathing", "length", s), "length", "breathing_length_m", 1, 0),
-            (units.header("end move", "short_length", s), "short_length", "end_movement_mm", 1e-3, 2 if us else 1),
-            (units.header("break gap", "short_length", s), "short_length", "pull_apart_gap_mm", 1e-3, 2 if us else 1),
+            (units.header_lines("breathing length", "length", s), "length", "breathing_length_m", 1, 0),
+            (units.header_lines("end movement", "short_length", s), "short_length", "end_movement_mm", 1e-3, 2 if us else 1),
+            (units.header_lines("break gap", "short_length", s), "short_length", "pull_apart_gap_mm", 1e-3, 2 if us else 1),
         ]
     for head, *_ in cols:
-        table.add_column(head, justify="right", overflow="fold")
-    table.add_column("state")
+        table.add_column(head, justify="right")
+    table.add_column("state", no_wrap=True)
     for row in results:
         cells = [units.number(row[key] * scale, kind, s, d) if key in row else "–" for _, kind, key, scale, d in cols]
         table.add_row(*cells, row["state"])

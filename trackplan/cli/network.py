@@ -62,7 +62,8 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
 
         # no refresh thread (auto_refresh=False): worker processes are forked during the run
         with Progress(console=err_console, transient=True, auto_refresh=False) as bar:
-            task = bar.add_task("assessing sections", total=len(sf.sections))
+            read_records(assessor, sf.sections, bar)
+            task = bar.add_task("rail temperatures, stability and verdicts", total=len(sf.sections))
             results, problems = assessor.assess_all(sf.sections, progress=lambda: (bar.advance(task), bar.refresh()))
     else:
         results, problems = assessor.assess_all(sf.sections)
@@ -95,6 +96,52 @@ def print_records(rows) -> None:
             if w.code in RECORD_CODES and str(w) not in said:
                 said.add(str(w))
                 console.print(f"[yellow]Warning ({w.code}):[/] {escape(str(w))}", highlight=False)
+
+
+def network_name(path: Path) -> str | None:
+    """The ``[network] name`` of a section file, or None (the file was read before)."""
+    import tomllib
+
+    try:
+        name = tomllib.loads(Path(path).read_text(encoding="utf-8")).get("network", {}).get("name")
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError, AttributeError):
+        return None
+    return name if isinstance(name, str) and name.strip() else None
+
+
+def print_data_warnings(assessments, s: str) -> None:
+    """Data warnings once per station, naming it and its sections, figures in ``s``."""
+    from trackplan.cli.common import console
+    from trackplan.reports import grouped_warnings
+    from trackplan.units import text_in
+
+    from trackplan import notices
+
+    # the record-quality warnings are said once per record by print_records
+    items = ((a.climate.station, a.section.id, w) for a in assessments for w in a.climate.warnings
+             if notices.as_notice(w).code not in RECORD_CODES)
+    for station, ids, w in grouped_warnings(items):
+        console.print(f"Data warning ({station}; {', '.join(ids)}): {text_in(w, s)}", highlight=False, markup=False)
+
+
+def read_records(assessor, sections, bar) -> None:
+    """Read each distinct climate record once, with its own progress line (the first
+    phase of a network run; a record that cannot be read is reported with its section later)."""
+    first = {}
+    for sec in sections:  # one section per distinct read (file, column mapping, zone)
+        try:
+            first.setdefault(assessor.record_key(sec.climate_path, sec), sec)
+        except InputError:
+            pass
+    task = bar.add_task("reading climate records", total=len(first))
+    bar.refresh()
+    for sec in first.values():
+        try:
+            assessor.record(sec.climate_path, f"{sec.file.name} [sections.{sec.id}] climate", sec)
+        except InputError:
+            pass  # reported with its section
+        bar.advance(task)
+        bar.refresh()
 
 
 def report_problems(problems: list[InputError], n_ok: int | None = None) -> None:

@@ -34,20 +34,25 @@ def profiles_cmd(
         return
     s = system.value
     table = Table(title="Rail profiles", show_lines=False)
-    for col in ("profile", "standard", "area", "mass", "I vertical", "I lateral", "height", "foot", "head", "confirmed"):
-        table.add_column(col, justify="left" if col in ("profile", "standard", "confirmed") else "right")
+    short = "short_length"
+    for col in ("profile", "standard", units.header_lines("area", "area", s), units.header_lines("mass", "mass_per_length", s),
+                units.header_lines("I vert.", "second_moment", s), units.header_lines("I lat.", "second_moment", s),
+                units.header_lines("height", short, s), units.header_lines("foot", short, s), units.header_lines("head", short, s),
+                "checked"):
+        table.add_column(col, justify="left" if col in ("profile", "standard", "checked") else "right")
     for p in rows:
         table.add_row(
             p.name,
             p.standard,
-            units.fmt(p.area_m2, "area", s, 2),
-            units.fmt(p.mass_kg_per_m, "mass_per_length", s, 1),
-            units.fmt(p.vertical_inertia_m4, "second_moment", s, 1),
-            units.fmt(p.lateral_inertia_m4, "second_moment", s, 1),
-            units.fmt(p.height_m, "short_length", s, 1 if s == "si" else 3),
-            units.fmt(p.foot_width_m, "short_length", s, 1 if s == "si" else 3),
-            units.fmt(p.head_width_m, "short_length", s, 1 if s == "si" else 3),
+            units.number(p.area_m2, "area", s, 2),
+            units.number(p.mass_kg_per_m, "mass_per_length", s, 1),
+            units.number(p.vertical_inertia_m4, "second_moment", s, 0 if s == "si" else 1),
+            units.number(p.lateral_inertia_m4, "second_moment", s, 0 if s == "si" else 1),
+            units.number(p.height_m, "short_length", s, 1 if s == "si" else 3),
+            units.number(p.foot_width_m, "short_length", s, 1 if s == "si" else 3),
+            units.number(p.head_width_m, "short_length", s, 1 if s == "si" else 3),
             "yes" if p.confirmed else "no",
         )
     console.print(table)
-    console.print("Sources: see `trackplan profiles --json` (field 'source') or trackplan/data/rails.csv.")
+    console.print("'checked': the row was checked against its standard ('no': written from memory). "
+                  "Sources: see `trackplan profiles --json` (field 'source') or trackplan/data/rails.csv.")

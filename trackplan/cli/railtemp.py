@@ -21,6 +21,7 @@ from trackplan.cli.common import (
     command,
     console,
     emit_json,
+    phase,
     print_caution,
 )
 from trackplan.errors import InputError
@@ -105,6 +106,7 @@ def railtemp_cmd(
 
     from trackplan import columns, notices
 
+    phase(f"reading {Path(file).name}")
     df, meta = weather.read_record(file, columns=columns.parse_options(column), tz=tz, site=(lat_v, lon_v))
     lat_v = lat_v if lat_v is not None else meta.get("latitude_deg")
     lon_v = lon_v if lon_v is not None else meta.get("longitude_deg")
@@ -113,6 +115,7 @@ def railtemp_cmd(
     site = railtemp.RailSite(float(lat_v), float(lon_v), float(meta.get("elevation_m") or 0.0),
                              track_azimuth_deg=float(az_v) % 360.0, shade_factor=shade_v)
     name = railtemp.resolve_method(method, meta, df)
+    phase(f"rail temperatures ({name}, {len(df):,} time steps)")
     hourly = None
     if name == "heat-balance":
         prep = railtemp.prepare_solar(df, meta, site)
@@ -121,13 +124,22 @@ def railtemp_cmd(
     else:
         daily = railtemp.daily_rail_extremes(df, meta, profile, site, method=name)
     typical = bool(meta.get("typical_year"))
+    phase(f"annual extremes and {distribution} fit")
     design = extremes.design_extremes(daily, return_period, distribution, typical_year=typical,
                                       years=None if typical else meta.get("years"), allow_short=allow_short)
     warnings = list(meta.get("warnings") or []) + design.warnings
+    if lat is not None and lon is not None:  # the record's lack of coordinates is made good by --lat/--lon
+        warnings = [w for w in warnings if "no latitude/longitude" not in w]
     station = meta.get("station") or Path(file).name
 
     if out is not None:
-        _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, system.value)
+        phase(f"writing files to {out}")
+        settings = [("command", "trackplan railtemp"), ("record", str(file)), ("station", station),
+                    ("latitude", f"{site.latitude_deg:.3f} deg"), ("longitude", f"{site.longitude_deg:.3f} deg"),
+                    ("rail", profile.name), ("track azimuth", f"{site.track_azimuth_deg:g} deg"),
+                    ("shade", f"{site.shade_factor:g}"), ("method", name),
+                    ("return period", f"{return_period:g} years"), ("distribution", distribution)]
+        _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, system.value, settings)
 
     if as_json:
         obj = design.as_json(station)
@@ -171,7 +183,7 @@ def _print(design, station, meta, site, profile, method, warnings, s, out) -> No
     def ci(c):
         if c is None:
             return "–"
-        return f"{units.fmt(c[0], 'temperature', s)} to {units.fmt(c[1], 'temperature', s)}"
+        return f"{units.number(c[0], 'temperature', s)} to {units.fmt(c[1], 'temperature', s)}"
 
     basis = design.design_basis
     label = (f"{design.return_period_years:g}-year return level ({basis})" if basis not in ("observed",
@@ -180,32 +192,43 @@ def _print(design, station, meta, site, profile, method, warnings, s, out) -> No
              else f"observed extreme plus allowance for {design.return_period_years:g} years")
     dt = Table(title=f"Design rail temperatures: {label}, {design.years} year(s)")
     dt.add_column("")
-    dt.add_column("rail temperature", justify="right")
-    dt.add_column(f"{design.ci_level:.0%} interval" if basis != "observed" else "interval", justify="right")
-    dt.add_column("observed (rail / air)", justify="right")
-    dt.add_row("maximum", units.fmt(design.design_max_rail_temperature_C, "temperature", s), ci(design.max_ci_C),
-               f"{units.fmt(design.observed_max_rail_temperature_C, 'temperature', s)} / "
-               f"{units.fmt(design.max_air_temperature_C, 'temperature', s)}")
-    dt.add_row("minimum", units.fmt(design.design_min_rail_temperature_C, "temperature", s), ci(design.min_ci_C),
-               f"{units.fmt(design.observed_min_rail_temperature_C, 'temperature', s)} / "
-               f"{units.fmt(design.min_air_temperature_C, 'temperature', s)}")
+    dt.add_column("design value", justify="right")
+    dt.add_column("which", justify="left")
+    if basis != "observed":
+        dt.add_column(f"{design.ci_level:.0%} interval", justify="right")
+        dt.add_column("return level", justify="right")
+    dt.add_column("recorded (rail, air)", justify="right", no_wrap=True)
+    for tail in ("max", "min"):
+        d = getattr(design, f"design_{tail}_rail_temperature_C")
+        row = ["maximum" if tail == "max" else "minimum", units.fmt(d, "temperature", s),
+               getattr(design, f"{tail}_basis")]
+        if basis != "observed":
+            row.append(ci(getattr(design, f"{tail}_ci_C")))
+            row.append(units.fmt(getattr(design, f"{tail}_return_level_C"), "temperature", s))
+        row.append(f"{units.fmt(getattr(design, f'observed_{tail}_rail_temperature_C'), 'temperature', s)}, "
+                   f"{units.fmt(getattr(design, f'{tail}_air_temperature_C'), 'temperature', s)}")
+        dt.add_row(*row)
     console.print(dt)
     if warnings:
         console.print("[yellow]Warnings:[/]", highlight=False)
         for w in warnings:
-            console.print(f"  - {w}", highlight=False, markup=False)
+            console.print(f"  - {units.text_in(w, s)}", highlight=False, markup=False)
     if out is not None:
         console.print(f"Files written to {out}", highlight=False)
     print_caution()
 
 
-def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s) -> None:
+def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s, meta_rows=()) -> None:
     import numpy as np
     import pandas as pd
 
     from trackplan import reports
 
     inputs = [file]
+    meta_rows = list(meta_rows)
+    kv = dict(meta_rows)
+    settings = (f"{kv.get('rail', '')}, azimuth {kv.get('track azimuth', '')}, shade {kv.get('shade', '')}, "
+                f"{kv.get('method', '')}; return period {kv.get('return period', '')}, {kv.get('distribution', '')}")
     if hourly is not None:
         # local standard time with its UTC offset, e.g. 1995-07-01T14:00-06:00
         # (datetime_as_string: strftime is far too slow for 30 years of hours)
@@ -220,12 +243,12 @@ def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s) -
             "air_temperature_C": df["air_temperature_C"].to_numpy(float).round(2),
             "rail_temperature_C": hourly.to_numpy(float).round(2),
         })
-        reports.write_csv(out_dir / "rail_temperature_hourly.csv", frame, inputs)
+        reports.write_csv(out_dir / "rail_temperature_hourly.csv", frame, inputs, meta_rows)
     dframe = daily.reset_index()
     dframe.columns = ["date", *daily.columns]
     dframe["date"] = pd.DatetimeIndex(dframe["date"]).strftime("%Y-%m-%d")
-    reports.write_csv(out_dir / "rail_temperature_daily.csv", dframe.round(2), inputs)
-    reports.write_csv(out_dir / "annual_extremes.csv", design.annual.round(2), inputs)
+    reports.write_csv(out_dir / "rail_temperature_daily.csv", dframe.round(2), inputs, meta_rows)
+    reports.write_csv(out_dir / "annual_extremes.csv", design.annual.round(2), inputs, meta_rows)
 
     reports.matplotlib_backend()
     import matplotlib.pyplot as plt
@@ -242,15 +265,20 @@ def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s) -
     ax.plot(a.year, conv(a.max_air_temperature_C), "s--", color="tab:orange", label="annual max air")
     ax.plot(a.year, conv(a.min_rail_temperature_C), "o-", color="tab:blue", label="annual min rail")
     ax.plot(a.year, conv(a.min_air_temperature_C), "s--", color="tab:cyan", label="annual min air")
-    ax.axhline(conv(design.design_max_rail_temperature_C)[0], color="tab:red", lw=0.8, ls=":",
-               label=f"design max ({design.design_basis})")
-    ax.axhline(conv(design.design_min_rail_temperature_C)[0], color="tab:blue", lw=0.8, ls=":",
-               label=f"design min ({design.design_basis})")
+    dmax, dmin = conv(design.design_max_rail_temperature_C)[0], conv(design.design_min_rail_temperature_C)[0]
+    ax.axhline(dmax, color="tab:red", lw=0.9, ls=":",
+               label=f"design max {dmax:.1f} {lab} ({design.max_basis})")
+    ax.axhline(dmin, color="tab:blue", lw=0.9, ls=":",
+               label=f"design min {dmin:.1f} {lab} ({design.min_basis})")
+    # both design lines inside the axes, with room above for the legend
+    lo = min(dmin, float(np.nanmin(conv(a.min_rail_temperature_C))))
+    hi = max(dmax, float(np.nanmax(conv(a.max_rail_temperature_C))))
+    ax.set_ylim(lo - 0.05 * (hi - lo), hi + 0.35 * (hi - lo))
     ax.set_xlabel("year")
     ax.set_ylabel(f"temperature ({lab})")
-    ax.set_title(f"{station}: annual rail and air extremes")
+    ax.set_title(f"{station}: annual rail and air extremes\n{settings}", fontsize=10)
     ax.grid(alpha=0.3)
-    ax.legend(fontsize=8, ncol=3)
+    ax.legend(fontsize=8, ncol=3, loc="upper center")
     reports.save_figure(out_dir / "annual_extremes.png", fig, inputs)
 
     from trackplan.extremes import plotting_positions
@@ -273,14 +301,17 @@ def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s) -
             if np.all(np.isfinite(lo)):
                 ax.fill_between(T, conv(lo), conv(hi), color=color, alpha=0.2,
                                 label=f"{design.ci_level:.0%} interval")
-        ax.axvline(design.return_period_years, color="grey", lw=0.8, ls=":")
-        ax.semilogx([design.return_period_years], conv(getattr(design, f"design_{tail}_rail_temperature_C")), "D",
-                    color=color, mec="k", ms=6, label=f"design value ({design.design_basis})")
+        ax.axvline(design.return_period_years, color="grey", lw=0.8, ls=":",
+                   label=f"{design.return_period_years:g}-year return period")
+        dv = conv(getattr(design, f"design_{tail}_rail_temperature_C"))
+        ax.semilogx([design.return_period_years], dv, "D", color=color, mec="k", ms=6,
+                    label=f"design value {dv[0]:.1f} {lab} ({getattr(design, f'{tail}_basis')})")
         ax.set_xlabel("return period (years)")
         ax.set_ylabel(f"annual {tail} rail temperature ({lab})")
         ax.grid(alpha=0.3, which="both")
         ax.legend(fontsize=8)
-    fig.suptitle(f"{station}: return levels ({design.distribution} fit; design basis {design.design_basis})")
+    fig.suptitle(f"{station}: return levels ({design.distribution} fit; design basis {design.design_basis})"
+                 f"\n{settings}", fontsize=10)
     reports.save_figure(out_dir / "return_levels.png", fig, inputs)
 
     if hourly is not None and np.isfinite(hourly.to_numpy(float)).any():
@@ -293,7 +324,8 @@ def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s) -
         ax.plot(x, conv(hourly[sel]), color="tab:red", label="rail (heat balance)")
         ax.plot(x, conv(df["air_temperature_C"][sel]), color="tab:orange", label="air")
         ax.set_ylabel(f"temperature ({lab})")
-        ax.set_title(f"{station}: hottest week, hour by hour (peak {t_hot:%Y-%m-%d %H:%M})")
+        ax.set_title(f"{station}: hottest week, hour by hour (peak {t_hot:%Y-%m-%d %H:%M})\n{settings}",
+                     fontsize=10)
         ax.grid(alpha=0.3)
         if "ghi_W_m2" in df.columns:
             ax2 = ax.twinx()

@@ -7,14 +7,16 @@ from pathlib import Path
 from typing import Optional
 
 import typer
+from rich.markup import escape
 from rich.table import Table
 
-from trackplan import CAUTION, units
-from trackplan.cli.common import (COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem, command, console, emit_json, err_console,
-                                  parse_option, print_caution, progress_enabled)
-from trackplan.cli.network import (REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, print_records, read_sections,
-                                   report_problems)
+from trackplan import CAUTION, __version__, units
+from trackplan.cli.common import (COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem, command, console,
+                                  emit_json, err_console, parse_option, print_caution, progress_enabled, wide_console)
+from trackplan.cli.network import (REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, print_records, read_records,
+                                   read_sections, report_problems)
 from trackplan.errors import InputError
+from trackplan.screen_report import MIN_TREND_DAYS, heat_total, rate_text, signed, trend_text
 
 _LEVEL_STYLE = {"watch": "yellow", "restrict": "bold red", "critical": "bold magenta", "cold": "bold blue"}
 _LEVEL_COLOUR = {"watch": "#f1c40f", "restrict": "#e67e22", "critical": "#c0392b", "cold": "#2e86c1"}
@@ -23,7 +25,7 @@ PLOT_SECTIONS_TIMELINE = 30
 PLOT_SECTIONS_ANNUAL = 12
 
 
-def build_options(date_from, date_to, months, warming, neutral_override, watch_fraction, system):
+def build_options(date_from, date_to, months, warming, neutral_override, watch_fraction, system, season=None):
     """Parse the command-line options into :class:`trackplan.screening.ScreenOptions`."""
     from trackplan import screening
 
@@ -33,7 +35,8 @@ def build_options(date_from, date_to, months, warming, neutral_override, watch_f
     warm, _ = parse_option(warming, "temperature_difference", "--warming", system, required=False)
     tn, _ = parse_option(neutral_override, "temperature", "--neutral-override", system, required=False)
     return screening.ScreenOptions(start=start, end=end, months=mo, warming_K=warm or 0.0,
-                                   neutral_override_C=tn, watch_fraction=watch_fraction).validate()
+                                   neutral_override_C=tn, watch_fraction=watch_fraction,
+                                   season=None if season is None else season.strip().lower()).validate()
 
 
 def run_screen(sections_file: Path, options, strict: bool, register: Path | None = None, column=None, tz=None):
@@ -50,7 +53,8 @@ def run_screen(sections_file: Path, options, strict: bool, register: Path | None
 
         # no refresh thread (auto_refresh=False): worker processes are forked during the run
         with Progress(console=err_console, transient=True, auto_refresh=False) as bar:
-            task = bar.add_task("screening sections", total=len(sf.sections))
+            read_records(screener.assessor, sf.sections, bar)
+            task = bar.add_task("rail temperatures and risk days", total=len(sf.sections))
             result = screener.screen_all(sf.sections, progress=lambda: (bar.advance(task), bar.refresh()))
     else:
         result = screener.screen_all(sf.sections)
@@ -66,40 +70,70 @@ def run_screen(sections_file: Path, options, strict: bool, register: Path | None
 # --------------------------------------------------------------------------
 
 
-def _per_year(v) -> str:
-    return "–" if v is None else f"{v:.1f}"
+_rate = rate_text
+_signed = signed
+_heat_total = heat_total
+_trend_text = trend_text
 
 
-def _trend_text(t) -> str:
-    if t.heat_days_per_decade is None:
-        return "–"
-    se = f" ± {t.heat_days_per_decade_se:.1f}" if t.heat_days_per_decade_se is not None else ""
-    return f"{t.heat_days_per_decade:+.1f}{se}"
+def _count_cell(r, lev: str) -> str:
+    """Days in the record and, in brackets, days per complete year."""
+    n = r.cold_days if lev == "cold" else r.heat_days_by_level[lev]
+    text = f"{n} ({_rate(r.days_per_year(lev))})"
+    return f"[{_LEVEL_STYLE[lev]}]{text}[/]" if n else text
 
 
-def print_summary(result, s: str) -> None:
+def _clear(t) -> bool:
+    """A slope more than twice its standard error from zero."""
+    se = t.heat_days_per_decade_se
+    return se is not None and abs(t.heat_days_per_decade) > 2 * se
+
+
+def trend_sentence(secs) -> str | None:
+    """The largest increase and the largest decrease of heat days, each said with its
+    standard error and whether it stands out from zero (more than two standard errors)."""
+    with_trend = [r for r in secs if r.trend.heat_days_per_decade is not None and _heat_total(r) >= MIN_TREND_DAYS]
+    if not with_trend:
+        return None
+    parts = []
+    up = max(with_trend, key=lambda r: r.trend.heat_days_per_decade)
+    down = min(with_trend, key=lambda r: r.trend.heat_days_per_decade)
+    for word, r in (("Largest increase", up), ("Largest decrease", down)):
+        t = r.trend
+        if (t.heat_days_per_decade <= 0) if word == "Largest increase" else (t.heat_days_per_decade >= 0):
+            continue
+        clear = "clear (beyond two standard errors)" if _clear(t) else "within two standard errors of no change"
+        parts.append(f"{word}: {r.id} {_signed(t.heat_days_per_decade)} ± {t.heat_days_per_decade_se or 0:.1f} "
+                     f"heat days per decade, {clear}")
+    if not parts:
+        return "No section's heat days rise or fall over the record."
+    return "; ".join(parts) + "."
+
+
+def print_summary(result, s: str, wide: bool = False) -> None:
     from trackplan.screening import rank_key
 
     secs = sorted(result.sections, key=rank_key)
     dT = lambda v: units.number(v, "temperature_difference", s)
-    table = Table(title="Risk days per section (days per complete year; worst first)")
-    for h, j in (("section", "left"), ("record", "left"), ("complete years", "right"), ("missing days", "right"),
-                 ("watch", "right"), ("restrict", "right"), ("critical", "right"), ("cold", "right"),
-                 (units.header("worst day: rise / allowable", "temperature_difference", s), "left"),
-                 ("heat-day trend (days/decade)", "right")):
-        table.add_column(h, justify=j, overflow="fold")
+    table = Table(box=None, pad_edge=False, header_style="bold underline", title="Risk days per section, worst first: days in the record (per complete year); "
+                  "trend of heat days per decade")
+    heads = [("section", "left"), ("years", "right"), ("watch", "right"), ("restrict", "right"),
+             ("critical", "right"), ("cold", "right"), ("worst day", "left"), ("trend", "right")]
+    if wide:
+        heads[1:1] = [("record", "left"), ("missing days", "right")]
+        heads.insert(-1, (units.header("rise / allowable", "temperature_difference", s), "right"))
+    for h, j in heads:
+        table.add_column(h, justify=j, no_wrap=True)
     for r in secs:
         w = r.worst_day
-        worst = "–" if w is None else f"{w.date.isoformat()}: {dT(w.rise_K)} / {dT(w.allowable_rise_K)}" + (
-            f" [{_LEVEL_STYLE[w.level]}]{w.level}[/]" if w.level else "")
-        table.add_row(
-            r.id, f"{r.first_date.isoformat()} – {r.last_date.isoformat()}", str(r.complete_years),
-            str(r.missing_days),
-            *[f"[{_LEVEL_STYLE[lev]}]{_per_year(r.days_per_year(lev))}[/]" if r.days_per_year(lev) else
-              _per_year(r.days_per_year(lev)) for lev in ("watch", "restrict", "critical", "cold")],
-            worst, _trend_text(r.trend),
-        )
-    console.print(table)
+        worst = "–" if w is None else w.date.isoformat() + (f" [{_LEVEL_STYLE[w.level]}]{w.level}[/]" if w.level else "")
+        row = [r.id, str(r.complete_years), *[_count_cell(r, lev) for lev in ("watch", "restrict", "critical", "cold")],
+               worst, _trend_text(r)]
+        if wide:
+            row[1:1] = [f"{r.first_date.isoformat()} – {r.last_date.isoformat()}", str(r.missing_days)]
+            row.insert(-1, "–" if w is None else f"{dT(w.rise_K)} / {dT(w.allowable_rise_K)}")
+        table.add_row(*row)
+    (wide_console() if wide else console).print(table)
 
     worst = sorted((d for r in result.sections for d in r.worst_days[:3] if d.level is not None),
                    key=lambda d: d.margin_K)[:10]
@@ -108,7 +142,7 @@ def print_summary(result, s: str) -> None:
         wt = Table(title="Worst days (smallest margin to the allowable rise)")
         for h, j in (("section", "left"), ("date", "left"), ("level", "left"),
                      (units.header("rail max", "temperature", s), "right"),
-                     (units.header("neutral less drift", "temperature", s), "right"),
+                     (units.header("neutral − drift", "temperature", s), "right"),
                      (units.header("rise", "temperature_difference", s), "right"),
                      (units.header("allowable", "temperature_difference", s), "right")):
             wt.add_column(h, justify=j)
@@ -119,17 +153,18 @@ def print_summary(result, s: str) -> None:
                        dT(d.allowable_rise_K))
         console.print(wt)
 
-    trends = [r for r in secs if r.trend.heat_days_per_decade is not None]
-    if trends:
-        worst_t = max(trends, key=lambda r: r.trend.heat_days_per_decade)
-        t = worst_t.trend
-        console.print(
-            "Trend: least-squares slope (as numpy.polyfit, degree 1) of the heat days (watch or worse) per complete year, in days "
-            f"per decade ± standard error. Steepest: {worst_t.id} {t.heat_days_per_decade:+.1f} days per decade "
-            f"(restrict or worse {t.restrict_days_per_decade:+.1f}, cold {t.cold_days_per_decade:+.1f}; {t.note}).",
-            highlight=False)
+    sentence = trend_sentence(secs)
+    console.print("Trend: least-squares slope (as numpy.polyfit, degree 1) of the heat days (watch or worse) per "
+                  "complete year, in days per decade ± standard error; 'few days' below "
+                  f"{MIN_TREND_DAYS} heat days in the record. " + (sentence or "No section has a trend to give."),
+                  highlight=False)
     for n in sorted({r.trend.note for r in secs if r.trend.heat_days_per_decade is None}):
         console.print(f"No trend: {n}.", highlight=False)
+    from trackplan.reports import grouped_warnings
+
+    for station, ids, w in grouped_warnings((r.station, r.id, w) for r in secs for w in r.warnings):
+        console.print(f"[yellow]Warning[/] ({station}; {', '.join(ids)}): {escape(units.text_in(w, s))}",
+                      highlight=False)
     notes = sorted({n for r in secs for n in r.notes if not n.startswith("days before the neutral date")})
     replay = sum(any(n.startswith("days before the neutral date") for n in r.notes) for r in secs)
     o = result.options
@@ -144,12 +179,45 @@ def print_summary(result, s: str) -> None:
                       "temperature: a replay of the climate on the section as recorded, not its past.",
                       highlight=False)
     for n in notes:
-        console.print(n, highlight=False)
+        console.print(units.text_in(n, s), highlight=False, markup=False)
 
 
 # --------------------------------------------------------------------------
 # Files
 # --------------------------------------------------------------------------
+
+
+def settings_pairs(o, system: str = "si") -> list[tuple[str, str]]:
+    """The settings a screening was made with, as (name, value) pairs (every file records them)."""
+    if o.season is not None:
+        months = f"{o.season} at each station's hemisphere"
+    elif o.months is not None:
+        months = f"{o.months[0]}-{o.months[1]}"
+    else:
+        months = "all"
+    return [
+        ("command", "trackplan screen"),
+        ("from", o.start.isoformat() if o.start else "start of each record"),
+        ("to", o.end.isoformat() if o.end else "end of each record"),
+        ("months", months),
+        ("warming", units.fmt(o.warming_K, "temperature_difference", system) if o.warming_K else "none"),
+        ("neutral override", units.fmt(o.neutral_override_C, "temperature", system)
+         if o.neutral_override_C is not None else "none"),
+        ("watch fraction", f"{o.watch_fraction:g}"),
+    ]
+
+
+def settings_line(o, system: str = "si") -> str:
+    """The settings in one line for plot titles: months and the what-ifs."""
+    pairs = dict(settings_pairs(o, system))
+    parts = [f"months {pairs['months']}"]
+    if o.start or o.end:
+        parts.append(f"{pairs['from']} to {pairs['to']}")
+    if o.warming_K:
+        parts.append(f"what-if warming {units.fmt(o.warming_K, 'temperature_difference', system)}")
+    if o.neutral_override_C is not None:
+        parts.append(f"what-if neutral {pairs['neutral override']}")
+    return "; ".join(parts)
 
 
 def timeline_figure(result, system: str = "si"):
@@ -174,8 +242,8 @@ def timeline_figure(result, system: str = "si"):
     ax.invert_yaxis()
     ax.set_xlabel("date")
     more = len(result.sections) - len(secs)
-    ax.set_title("Flagged days" + (f" ({len(secs)} worst of {len(result.sections)} sections)" if more > 0 else ""),
-                 fontsize=10)
+    ax.set_title("Flagged days" + (f" ({len(secs)} worst of {len(result.sections)} sections)" if more > 0 else "")
+                 + f"\n{settings_line(result.options, system)}", fontsize=10)
     handles, labels = ax.get_legend_handles_labels()
     uniq = dict(zip(labels, handles))
     if uniq:
@@ -195,7 +263,7 @@ def annual_figure(result, system: str = "si"):
     n = max(len(secs), 1)
     cols = 2 if n > 1 else 1
     rows = math.ceil(n / cols)
-    fig, axes = plt.subplots(rows, cols, figsize=(5.0 * cols, 2.1 * rows), squeeze=False)
+    fig, axes = plt.subplots(rows, cols, figsize=(5.0 * cols, 2.1 * rows + 0.6), squeeze=False)
     for k, (ax, r) in enumerate(zip(axes.ravel(), secs)):
         a = r.annual
         # stacked steps, one polygon per level (as fast as a bar chart is slow)
@@ -203,51 +271,73 @@ def annual_figure(result, system: str = "si"):
         for lev, col in (("watch", a.watch_days), ("restrict", a.restrict_days), ("critical", a.critical_days)):
             ax.fill_between(a.year, bottom, bottom + col, step="mid", color=_LEVEL_COLOUR[lev], label=lev, lw=0)
             bottom = bottom + col
-        ax.fill_between(a.year, 0, -a.cold_days, step="mid", color=_LEVEL_COLOUR["cold"], label="cold (down)", lw=0)
+        if a.cold_days.any():
+            ax.fill_between(a.year, 0, -a.cold_days, step="mid", color=_LEVEL_COLOUR["cold"], label="cold (down)", lw=0)
         part = ~a.complete
         if part.any():
             ax.plot(a.year[part], np.zeros(int(part.sum())), "x", color="0.4", label="incomplete year")
         t = r.trend
-        if t.heat_days_per_decade is not None:
+        if t.heat_days_per_decade is not None and heat_total(r) >= MIN_TREND_DAYS:
             x = a.year[a.complete].astype(float)
             p = np.polyfit(x, a.heat_days[a.complete].astype(float), 1)
             ax.plot(x, np.polyval(p, x), "k--", lw=1, label="trend of heat days")
         ax.axhline(0, color="k", lw=0.5)
-        trend = "no trend" if t.heat_days_per_decade is None else f"trend {t.heat_days_per_decade:+.1f} days/decade"
-        ax.set_title(f"{r.id}: days per year, cold below ({trend})", fontsize=8)
+        tt = trend_text(r)
+        trend = {"–": "no trend", "few days": "too few days for a trend"}.get(tt, f"trend {tt} days/decade")
+        cold = ", cold below" if a.cold_days.any() else ""
+        ax.set_title(f"{r.id}: heat days per year{cold} ({trend})", fontsize=8)
         ax.set_ylabel("days", fontsize=8)
         ax.tick_params(labelsize=7)
-        if k == 0:
-            ax.legend(fontsize=6, loc="upper left")
+        # whole days only; an empty panel shows 0..1 day, not a stretch below zero
+        top = max(1.0, float((a.watch_days + a.restrict_days + a.critical_days).max(initial=0)))
+        bottom = -max(1.0, float(a.cold_days.max(initial=0))) if a.cold_days.any() else 0.0
+        ax.set_ylim(bottom * 1.05, top * 1.08)
+        ax.yaxis.get_major_locator().set_params(integer=True)
         ax.grid(axis="y", alpha=0.3)
     for ax in axes.ravel()[len(secs):]:
         ax.set_visible(False)
-    if len(result.sections) > len(secs):
-        fig.suptitle(f"{len(secs)} worst of {len(result.sections)} sections; every section in annual_counts.csv",
-                     fontsize=9)
-    fig.subplots_adjust(hspace=0.45, wspace=0.18)
+    more = (f"{len(secs)} worst of {len(result.sections)} sections (every section in annual_counts.csv); "
+            if len(result.sections) > len(secs) else "")
+    H = 2.1 * rows + 0.6
+    fig.suptitle(f"Days per year by level: {more}{settings_line(result.options, system)}", fontsize=9,
+                 y=1.0 - 0.08 / H)
+    # one legend for every panel, above them, so that it covers no bar
+    handles, labels = {}, []
+    for ax in axes.ravel()[:len(secs)]:
+        for h, lab in zip(*ax.get_legend_handles_labels()):
+            handles.setdefault(lab, h)
+    if handles:
+        fig.legend(list(handles.values()), list(handles.keys()), fontsize=7, loc="upper center",
+                   ncol=min(len(handles), 6), bbox_to_anchor=(0.5, 1.0 - 0.3 / H), frameon=False)
+    fig.subplots_adjust(hspace=0.5, wspace=0.18, top=1.0 - 0.75 / H)
     return fig
 
 
 def write_outputs(out: Path, result, sections_file: Path, system: str) -> list[Path]:
-    """flagged_days.csv, annual_counts.csv, screen_summary.csv and the two plots."""
+    """flagged_days.csv, annual_counts.csv, screen_summary.csv, the two plots and
+    screen_summary.html; every file records the settings it was made with."""
     import pandas as pd
 
     from trackplan import reports, screening
+    from trackplan.cli.network import network_name
 
     reports.matplotlib_backend()
     inputs = [sections_file] + sorted({str(r.climate_path) for r in result.sections if r.climate_path})
     out = reports.prepare_out_dir(out, inputs, planned=["flagged_days.csv", "annual_counts.csv", "screen_summary.csv",
-                                                        "flagged_timeline.png", "annual_counts.png"])
+                                                        "flagged_timeline.png", "annual_counts.png",
+                                                        "screen_summary.html"])
+    settings = [settings_pairs(result.options, "si")[0], ("section file", str(sections_file)),
+                *settings_pairs(result.options, "si")[1:]]
     written = [
-        reports.write_csv(out / "flagged_days.csv", screening.flagged_frame(result), inputs),
-        reports.write_csv(out / "annual_counts.csv", screening.annual_frame(result), inputs),
+        reports.write_csv(out / "flagged_days.csv", screening.flagged_frame(result), inputs, settings),
+        reports.write_csv(out / "annual_counts.csv", screening.annual_frame(result), inputs, settings),
     ]
     rows = []
     for r in result.sections:
         j = screening.section_json(r)
         rows.append({
-            "section": r.id, "name": r.name, "station": r.station, "first_date": j["first_date"],
+            "section": r.id, "name": r.name, "station": r.station, "months": " ".join(str(m) for m in r.months),
+            "first_date": j["first_date"],
             "last_date": j["last_date"], "screened_days": r.screened_days, "missing_days": r.missing_days,
             "complete_years": r.complete_years,
             **{f"{lev}_days": r.heat_days_by_level[lev] for lev in screening.LEVELS},
@@ -257,14 +347,23 @@ def write_outputs(out: Path, result, sections_file: Path, system: str) -> list[P
             "worst_rise_K": j["worst_day"]["rise_K"] if j["worst_day"] else None,
             "worst_allowable_rise_K": j["worst_day"]["allowable_rise_K"] if j["worst_day"] else None,
             "heat_days_per_decade": r.trend.heat_days_per_decade,
+            "heat_days_per_decade_se": r.trend.heat_days_per_decade_se,
             "restrict_days_per_decade": r.trend.restrict_days_per_decade,
             "cold_days_per_decade": r.trend.cold_days_per_decade,
             "allowable_rise_K": r.allowable_rise_K, "critical_rise_K": j["critical_rise_K"],
             "critical_basis": r.critical_basis, "cold_limit_rise_K": r.cold_limit_rise_K,
         })
-    written.append(reports.write_csv(out / "screen_summary.csv", pd.DataFrame(rows), inputs))
-    written.append(reports.save_figure(out / "flagged_timeline.png", timeline_figure(result, system), inputs))
-    written.append(reports.save_figure(out / "annual_counts.png", annual_figure(result, system), inputs))
+    written.append(reports.write_csv(out / "screen_summary.csv", pd.DataFrame(rows), inputs, settings))
+    pngs = {"flagged_timeline.png": reports.figure_png_bytes(timeline_figure(result, system)),
+            "annual_counts.png": reports.figure_png_bytes(annual_figure(result, system))}
+    for name, png in pngs.items():
+        written.append(reports.write_atomic(out / name, lambda p, b=png: p.write_bytes(b), inputs))
+    from trackplan.screen_report import screen_html
+
+    html = screen_html(result, pngs, settings, system, network_name(sections_file), trend_sentence(
+        sorted(result.sections, key=screening.rank_key)), f"Section file {sections_file.name}; trackplan "
+        f"{__version__} screen.")
+    written.append(reports.write_text(out / "screen_summary.html", html, inputs))
     return written
 
 
@@ -273,16 +372,18 @@ def screen_cmd(
     sections_file: Path = SECTIONS_ARG,
     date_from: Optional[str] = typer.Option(None, "--from", help="First day screened, YYYY-MM-DD (default: the record's first)."),
     date_to: Optional[str] = typer.Option(None, "--to", help="Last day screened, YYYY-MM-DD (default: the record's last)."),
-    months: Optional[str] = typer.Option(None, "--months", help="Months screened, M1-M2 inclusive, e.g. 5-9; may wrap the year end (11-2), then years are seasons labelled by their start year."),
+    months: Optional[str] = typer.Option(None, "--months", help="Months screened, M1-M2 inclusive, e.g. 5-9; may wrap the year end (11-2), then years are seasons labelled by their start year. The same months at every station: see --season."),
+    season: Optional[str] = typer.Option(None, "--season", help="summer (May-September north of the equator, November-March south) or winter (the other way round), at each station's hemisphere; instead of --months."),
     warming: Optional[str] = typer.Option(None, "--warming", help="What-if: shift every daily rail temperature by this difference, e.g. '1.5 K' (a uniform shift, not a climate projection)."),
     neutral_override: Optional[str] = typer.Option(None, "--neutral-override", help="What-if: neutral temperature on every day, e.g. '35 degC' ('after destressing to this'; the drift allowance still applies on the heat side)."),
     watch_fraction: float = typer.Option(0.8, "--watch-fraction", help="'watch' from this fraction of the allowable rise (default 0.8, as in check)."),
-    out: Optional[Path] = typer.Option(None, "--out", help="Folder for flagged_days.csv, annual_counts.csv, screen_summary.csv, flagged_timeline.png and annual_counts.png."),
+    out: Optional[Path] = typer.Option(None, "--out", help="Folder for flagged_days.csv, annual_counts.csv, screen_summary.csv, flagged_timeline.png, annual_counts.png and screen_summary.html."),
     column: Optional[list[str]] = COLUMN_OPTION,
     tz: Optional[str] = TZ_OPTION,
     strict: bool = STRICT_OPTION,
     register: Optional[Path] = REGISTER_OPTION,
     system: UnitSystem = UNITS_OPTION,
+    wide: bool = typer.Option(False, "--wide", help="Add the record's dates, missing days and the worst day's rise to the table."),
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Risk days in the temperature history: how often would each section have been at risk?
@@ -305,7 +406,7 @@ def screen_cmd(
     """
     from trackplan import screening
 
-    options = build_options(date_from, date_to, months, warming, neutral_override, watch_fraction, system.value)
+    options = build_options(date_from, date_to, months, warming, neutral_override, watch_fraction, system.value, season)
     result = run_screen(sections_file, options, strict, register, column, tz)
     written = write_outputs(out, result, sections_file, system.value) if out is not None else []
     if as_json:
@@ -320,15 +421,17 @@ def screen_cmd(
         })
     else:
         if result.sections:
-            print_summary(result, system.value)
+            print_summary(result, system.value, wide)
             print_records([(r.climate_path.name, r.inputs.get('time_step'), r.inputs.get('tz'), r.warnings)
                            for r in result.sections])
+        else:
+            console.print("No section could be screened (see the problems below).", highlight=False)
         if register is not None:
             console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
                           highlight=False)
         if written:
-            console.print(f"Wrote {len(written)} files to {written[0].parent}/ (flagged_days.csv, annual_counts.csv, "
-                          "plots)", highlight=False)
+            console.print(f"Wrote {len(written)} files to {written[0].parent}/ (summary: screen_summary.html)",
+                          highlight=False)
         print_caution()
     report_problems(result.problems, len(result.sections))
     if result.problems:

@@ -38,7 +38,15 @@ def _positive_option(text, kind, option, system, allow_zero=False):
     return value, echo
 
 
-def _plot(result, out: Path, system: str, inputs=()):
+def _case(profile_name: str, sleeper: str, ballast: str, shoulder: str, inp, s: str) -> str:
+    """The track a result is for, in words (table and plot titles)."""
+    return (f"{profile_name}, {sleeper} sleepers, {ballast} ballast, {shoulder} shoulder, "
+            + ("tangent" if inp.radius_m is None else f"radius {units.fmt(inp.radius_m, 'length', s, 0)}")
+            + f", misalignment {units.fmt(inp.misalignment_m, 'short_length', s, 0 if s == 'si' else 1)} over "
+            f"{units.fmt(inp.misalignment_length_m, 'length', s, 0)}")
+
+
+def _plot(result, out: Path, system: str, inputs=(), case: str = ""):
     """PNG of the equilibrium curve with the critical points and the allowable rise."""
     from trackplan import reports
 
@@ -67,7 +75,7 @@ def _plot(result, out: Path, system: str, inputs=()):
                label=f"allowable {units.fmt(result.allowable_rise_K, 'temperature_difference', system)}")
     ax.set_xlabel(f"largest lateral displacement [{units.label(d_unit)}]")
     ax.set_ylabel(f"rail temperature rise above neutral [{units.label(t_unit)}]")
-    ax.set_title(f"Track lateral stability ({result.response})")
+    ax.set_title(f"Track lateral stability ({result.response})\n{case}", fontsize=9)
     ax.grid(alpha=0.3)
     ax.set_xlim(left=0)
     ax.set_ylim(bottom=0)
@@ -174,10 +182,13 @@ def stability_cmd(
 
         inputs = [profiles_file] if profiles_file else []
         out_dir = reports.prepare_out_dir(out, inputs)
-        files.append(_plot(result, out_dir, s, inputs))
+        files.append(_plot(result, out_dir, s, inputs, _case(profile.name, sleeper, ballast, shoulder, result.inputs, s)))
         frame = pd.DataFrame({"lateral_displacement_mm": result.curve_displacement_m * 1e3,
                               "rise_K": result.curve_rise_K})
-        files.append(reports.write_csv(out_dir / "stability_curve.csv", frame, inputs))
+        files.append(reports.write_csv(out_dir / "stability_curve.csv", frame, inputs, [
+            ("command", "trackplan stability"),
+            ("track", _case(profile.name, sleeper, ballast, shoulder, result.inputs, "si")),
+            ("allowable rise criterion", result.criterion)]))
 
     if as_json:
         data = {"rail": profile.name, "sleeper": sleeper, "ballast": ballast, "shoulder": shoulder}
@@ -219,9 +230,9 @@ def stability_cmd(
     tbl.add_row("misalignment", f"{units.fmt(inp.misalignment_m, 'short_length', s)} over "
                                 f"{units.fmt(inp.misalignment_length_m, 'length', s)}")
     console.print(tbl)
-    console.print(f"Allowable rise: {result.criterion}.", highlight=False)
+    console.print(f"Allowable rise: {units.text_in(result.criterion, s)}.", highlight=False, markup=False)
     for n in result.notes:
-        console.print(f"[dim]note: {n}[/]", highlight=False)
+        console.print(f"note: {units.text_in(n, s)}", highlight=False, markup=False, style="dim")
     for f in files:
         console.print(f"wrote {f}", highlight=False)
     print_caution()
