@@ -923,10 +923,10 @@ def _check_values(data: pd.DataFrame, meta: dict, lines, used: dict, ctx: _Ctx) 
     confirmed = bool(meta.get("units_confirmed")) or ctx.units_confirmed
     if "air_temperature_C" in data and meta.get("units_in_file", {}).get("air_temperature_C"):
         record_checks.unit_slip(data["air_temperature_C"], None, meta["units_in_file"]["air_temperature_C"], lat,
-                         "air_temperature", confirmed, ctx)
+                                "air_temperature", confirmed, ctx)
     if "tmax_C" in data and "tmin_C" in data:
         record_checks.unit_slip(data["tmax_C"], data["tmin_C"], meta["units_in_file"].get("tmax_C", ""), lat, "tmax",
-                         confirmed, ctx)
+                                confirmed, ctx)
 
 
 def _unit_hint(q: _Quantity, unit: str, raw: np.ndarray, x: np.ndarray) -> str:
