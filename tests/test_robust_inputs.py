@@ -516,3 +516,12 @@ def test_a_bad_default_is_named_as_one(tmp_path):
                                      '[sections.A]\nneutral_temperature = "30 degC"\n')
     sf = load_sections(tmp_path / "n.toml")
     assert "[sections.A] gap_limit (from [defaults])" in str(sf.problems[0])
+
+
+def test_names_with_dollar_signs_render_as_plain_text():
+    import matplotlib.pyplot as plt
+
+    reports.matplotlib_backend()
+    fig, ax = plt.subplots()
+    ax.set_title("M $\\frac{$")  # a section name from a file: not math notation
+    assert len(reports.figure_png_bytes(fig)) > 1000

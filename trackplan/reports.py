@@ -411,10 +411,13 @@ def save_figure(path: str | Path, fig, inputs: Iterable[str | Path] = (), dpi: i
 
 
 def matplotlib_backend() -> None:
-    """Select the non-interactive Agg backend (no screen on CI or servers)."""
+    """Select the non-interactive Agg backend (no screen on CI or servers), and read every text as
+    plain text: names and ids from users' files go into titles and legends, and a ``$`` in them must
+    not start matplotlib's math notation (an unbalanced one would stop the run)."""
     import matplotlib
 
     matplotlib.use("Agg")
+    matplotlib.rcParams["text.parse_math"] = False
 
 
 # --------------------------------------------------------------------------
