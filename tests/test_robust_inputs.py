@@ -525,3 +525,11 @@ def test_names_with_dollar_signs_render_as_plain_text():
     fig, ax = plt.subplots()
     ax.set_title("M $\\frac{$")  # a section name from a file: not math notation
     assert len(reports.figure_png_bytes(fig)) > 1000
+
+
+def test_markup_like_names_never_stop_a_command(run_cli, tmp_path):
+    p = _daily_csv(tmp_path / "st.csv")
+    p.write_text("# station: [/bad] [red]x\n" + p.read_text())
+    res = run_cli("railtemp", p)
+    assert res.exit_code == 0, res.output
+    assert "[/bad]" in res.output

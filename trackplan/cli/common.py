@@ -101,13 +101,29 @@ def _width(stream) -> int | None:
     return None if stream.isatty() or os.environ.get("COLUMNS", "").strip().isdigit() else PIPED_WIDTH
 
 
-console = Console(width=_width(sys.stdout))
+class _Console(Console):
+    """A rich console that never stops a run on text from a file: if a line's markup cannot be
+    read (a station or section name with ``[/...]`` in it), the line is printed as plain text."""
+
+    def print(self, *objects, **kwargs):
+        from rich.errors import MarkupError
+
+        try:
+            return super().print(*objects, **kwargs)
+        except MarkupError:
+            kwargs["markup"] = False
+            return super().print(*objects, **kwargs)
+
+
+console = _Console(width=_width(sys.stdout))
 
 
 def wide_console() -> Console:
     """A console for the --wide tables: at least :data:`WIDE_WIDTH` columns (they are asked for)."""
-    return Console(width=max(console.width, WIDE_WIDTH))
-err_console = Console(stderr=True, width=_width(sys.stderr))
+    return _Console(width=max(console.width, WIDE_WIDTH))
+
+
+err_console = _Console(stderr=True, width=_width(sys.stderr))
 
 
 class UnitSystem(str, Enum):
