@@ -533,3 +533,19 @@ def test_markup_like_names_never_stop_a_command(run_cli, tmp_path):
     res = run_cli("railtemp", p)
     assert res.exit_code == 0, res.output
     assert "[/bad]" in res.output
+
+
+def test_a_section_tripping_an_unforeseen_case_is_reported_alone(tmp_path, monkeypatch):
+    from trackplan import sections
+
+    _daily_csv(tmp_path / "r.csv")
+    good = 'rail = "60E1"\nclimate = "r.csv"\nneutral_temperature = "30 degC"\n'
+    (tmp_path / "n.toml").write_text(f"[sections.A]\n{good}sleeper = []\n[sections.B]\n{good}[sections.C]\n{good}")
+    sf = sections.load_sections(tmp_path / "n.toml")
+    assert [s.id for s in sf.sections] == ["B", "C"] and "[sections.A] sleeper" in str(sf.problems[0])
+    real = sections._section
+    monkeypatch.setattr(sections, "_section", lambda sid, *a: (_ for _ in ()).throw(KeyError(sid)) if sid == "B"
+                        else real(sid, *a))
+    sf = sections.load_sections(tmp_path / "n.toml")
+    assert [s.id for s in sf.sections] == ["C"]
+    assert "[sections.B]" in str(sf.problems[1]) and "internal error KeyError" in str(sf.problems[1])

@@ -364,23 +364,28 @@ def _check_neutral_range(t: float, where: str) -> None:
 
 
 def _all_field_problems(f: "_Fields") -> None:
-    """First pass over a section: every missing field and every unreadable or implausible quantity,
-    all reported in one message (the detailed checks that follow stop at the first)."""
-    problems = []
+    """First pass over a section: every missing field, every unreadable or implausible quantity and
+    every unknown choice, all reported in one message (the detailed checks that follow stop at the
+    first)."""
+    problems: list[tuple[str, InputError]] = []
     missing = [k for k in REQUIRED_FIELDS if f.raw(k) is None]
     if missing:
-        problems.append(f"missing field(s) {', '.join(repr(k) for k in missing)}")
-    for key, kind in QUANTITY_FIELDS.items():
+        text = f"missing field(s) {', '.join(repr(k) for k in missing)}"
+        problems.append((text, InputError(text, f.where)))
+    checks = [(key, lambda k=key, kind=kind: f.quantity(k, kind)) for key, kind in QUANTITY_FIELDS.items()]
+    checks += [(key, lambda k=key, o=options: f.choice(k, o))
+               for key, options in (("sleeper", SLEEPERS), ("ballast", BALLAST_STATES), ("shoulder", SHOULDERS))]
+    for key, check in checks:
         if key in missing:
             continue
         try:
-            f.quantity(key, kind)
+            check()
         except InputError as exc:
-            problems.append(f"{key}: {exc.bare_message}")
-    if len(problems) == 1 and missing:
-        raise InputError(problems[0], f.where)
+            problems.append((f"{key}: {exc.bare_message}", exc))
+    if len(problems) == 1:
+        raise problems[0][1]
     if len(problems) > 1:
-        raise InputError(f"{len(problems)} problems: " + "; ".join(problems), f.where)
+        raise InputError(f"{len(problems)} problems: " + "; ".join(t for t, _ in problems), f.where)
 
 
 def _climate_path(file: Path, clim: str, where: str) -> Path:
@@ -418,7 +423,7 @@ def _text_field(v, limit: int, where: str) -> str:
 
 
 def _check_id(sid: str, file: Path) -> None:
-    where = f"{file.name} [sections.{excerpt(sid, 40)}]"
+    where = f"{file.name} [sections.{sid[:40]}{'...' if len(sid) > 40 else ''}]"
     if len(sid) > MAX_ID_CHARS:
         raise InputError(f"the section id has {len(sid)} characters; at most {MAX_ID_CHARS}", where)
     if not sid.strip() or not sid.isprintable() or "[" in sid or "]" in sid:
@@ -684,6 +689,10 @@ def load_sections(path: str | Path, today: dt.date | None = None, strict: bool =
             out.sections.append(_section(sid, table, defaults, path.resolve(), today, user_profiles))
         except InputError as exc:
             out.problems.append(exc)
+        except Exception as exc:  # never lose the other sections to one that trips an unforeseen case
+            out.problems.append(InputError(
+                f"could not be read: internal error {type(exc).__name__}: {excerpt(exc, 120)} (a fault in "
+                "trackplan; please report it with the section file)", f"{path.name} [sections.{sid[:40]}]"))
     if strict and out.problems:
         if len(out.problems) == 1:
             raise out.problems[0]
