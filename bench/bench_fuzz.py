@@ -5,9 +5,9 @@
 Properties (the same as tests/test_fuzz_inputs.py, which runs them briefly in the suite):
 quantities parse inside their plausible range or are refused; any record text reads or is
 refused; any section neighbour leaves the good section computed. Then the command line:
-light commands (force, destress, stability, railtemp on a short generated record) with fuzzed
-option values must end with exit code 0, 1 or 2 and never show a traceback or an internal
-error (exit 3). Prints the number of examples, the time taken and any failure found.
+light commands (force, destress, stability) with fuzzed option values, and check, target and
+screen on a one-section file with fuzzed fields, stability overrides and events, must end with
+exit code 0, 1 or 2 and never show a traceback or an internal error (exit 3). Prints the number of examples, the time taken and any failure found.
 """
 
 from __future__ import annotations
@@ -94,6 +94,54 @@ def cli_fuzz(n: int) -> None:
           f"  (exit 0: {seen[0]}, 1: {seen[1]}, 2: {seen[2]})")
 
 
+#: Section fields and values for the network fuzz (plausible and hostile values mixed).
+_NET_FIELDS = ["name", "location", "radius", "length", "track_azimuth", "misalignment", "shade", "latitude",
+               "neutral_temperature", "drift_allowance", "gap_limit", "sleeper", "ballast", "sleeper_spacing",
+               "steel", "alpha", "rail_temperature_method", "return_period", "loading", "neutral_basis",
+               "neutral_date", "climate_units_confirmed", "tz"]
+_NET_HOSTILE = ['"$x$"', '"[/b]"', '"a\\u0000"', '"NV/1"', '"=1+1"', "1e308", "nan", "inf", "2099-01-01", "[]",
+                '"800 m"', '"5 K"', '"timber"', '"disturbed"']
+
+
+def network_fuzz(n: int) -> None:
+    """check, target and screen on a one-section file whose fields, stability overrides and
+    events are fuzzed: exit 0, 1 or 2, never an internal error."""
+    from typer.testing import CliRunner
+
+    from trackplan.cli import app
+
+    import test_robust_inputs as robust
+
+    d = Path(tempfile.mkdtemp(prefix="net-fuzz"))
+    robust._daily_csv(d / "r.csv", years=3)
+    runner = CliRunner()
+    values = st.one_of(props._TOML_VALUES, st.sampled_from(_NET_HOSTILE))
+    extra = st.one_of(
+        st.just(""),
+        st.builds(lambda k, v: f"[sections.A.stability]\n{k} = {v}\n",
+                  st.sampled_from(["peak_resistance", "limit_resistance", "longitudinal_resistance", "axle_load",
+                                   "support_modulus", "bogus"]), values),
+        st.builds(lambda day, kind, v: f"[[sections.A.events]]\ndate = {day}\nkind = {kind}\nneutral_temperature = {v}\n",
+                  st.sampled_from(["2020-01-01", "2099-01-01", '"x"']),
+                  st.sampled_from(['"destress"', '"tamping"', '"x"', "[]"]), values))
+    seen = {0: 0, 1: 0, 2: 0}
+
+    @settings(max_examples=n, deadline=None, suppress_health_check=list(HealthCheck))
+    @given(fields=st.dictionaries(st.sampled_from(_NET_FIELDS), values, max_size=4), more=extra,
+           cmd=st.sampled_from(["check", "target", "screen"]))
+    def one(fields, more, cmd):
+        body = {"rail": '"60E1"', "climate": '"r.csv"', "neutral_temperature": '"30 degC"', **fields}
+        (d / "n.toml").write_text("[sections.A]\n" + "".join(f"{k} = {v}\n" for k, v in body.items()) + more)
+        res = runner.invoke(app, [cmd, str(d / "n.toml"), "--json"])
+        assert res.exit_code in (0, 1, 2), (body, more, res.output[-600:])
+        seen[res.exit_code] += 1
+
+    t0 = time.perf_counter()
+    one()
+    print(f"{'network (check, target, screen) section fields':45s} {n:6d} examples  "
+          f"{time.perf_counter() - t0:7.1f} s  ok  (exit 0: {seen[0]}, 1: {seen[1]}, 2: {seen[2]})")
+
+
 def main() -> None:
     n = int(sys.argv[1]) if len(sys.argv) > 1 else 2000
     print(f"fuzz run, {n} examples per property (a shared machine: times are indicative)")
@@ -101,6 +149,7 @@ def main() -> None:
     run_property("record text read or refused", props.test_any_record_text_reads_or_is_refused, n)
     run_property("section neighbours never lose a section", props.test_any_section_reads_or_is_reported, n)
     cli_fuzz(max(50, n // 4))
+    network_fuzz(max(50, n // 4))
 
 
 if __name__ == "__main__":

@@ -124,10 +124,17 @@ def open_regular(path, where: str) -> int:
     return fd
 
 
-def check_regular(path, where: str) -> None:
-    """Refuse anything but a regular file (see :func:`open_regular`), for files that a library
-    opens itself (netCDF)."""
-    os.close(open_regular(path, where))
+def check_regular(path, where: str, limit: int | None = None) -> None:
+    """Refuse anything but a regular file (see :func:`open_regular`), or one over ``limit`` bytes,
+    for files that a library opens itself (netCDF)."""
+    fd = open_regular(path, where)
+    try:
+        size = os.fstat(fd).st_size
+    finally:
+        os.close(fd)
+    if limit is not None and size > limit:
+        raise InputError(f"the file is larger than {_mib(limit)}, the most trackplan reads; "
+                         "cut it to the years and place needed", where)
 
 
 def read_bytes(path, where: str, limit: int, decompress_limit: int | None = None) -> bytes:

@@ -452,7 +452,8 @@ def read_record(path, *, where: str | None = None, columns: dict | None = None, 
                units_confirmed=units_confirmed)
     from trackplan import quality, readers_cf, readers_fixed, safeio
 
-    safeio.check_regular(p, ctx.label)  # before any reader opens it (a FIFO would block, a device never end)
+    # before any reader opens it (a FIFO would block, a device never end)
+    safeio.check_regular(p, ctx.label, safeio.MAX_RECORD_BYTES)
     if readers_cf.is_netcdf(p):
         data, meta = readers_cf.read_cf(p, ctx)
         meta["file_stamp"] = _file_stamp(p)
