@@ -55,7 +55,7 @@ def test_force_us_bare_numbers(run_cli):
         (["--rail", "60E1", "--neutral", "27 m", "--at", "40 degC"], "--neutral"),
         (["--rail", "60E1", "--neutral", "warm", "--at", "40 degC"], "cannot read"),
         (["--rail", "60E1", "--neutral", "27 degC", "--at", "40 degC", "--resistance", "0 kN/m"], "--resistance"),
-        (["--rail", "60E1", "--neutral", "27 degC", "--at", "40 degC", "--resistance", "-3 kN/m"], "positive"),
+        (["--rail", "60E1", "--neutral", "27 degC", "--at", "40 degC", "--resistance", "-3 kN/m"], "outside 1..50 kN/m"),
         (["--rail", "60E1", "--neutral", "27 degC", "--at", "40 degC", "--youngs-modulus", "2 GPa"], "GPa"),
     ],
 )

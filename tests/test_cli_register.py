@@ -81,7 +81,8 @@ def test_log_measured_then_history_table_and_plot(run_cli, db, tmp_path):
     (["XX-1", "--kind", "note", "--date", "2024-01-01"], "unknown section"),
     (["KP-101", "--kind", "measured", "--date", "2024-01-01", "--neutral", "30 degC", "--method", "m"], "uncertainty"),
     (["KP-101", "--kind", "destressed", "--date", "2024-02-30", "--neutral", "30 degC"], "existing date"),
-    (["KP-101", "--kind", "destressed", "--date", "2024-02-03", "--neutral", "95 degC"], "-10..60"),
+    # refused by the plausible range of any neutral temperature, with the likely slip named
+    (["KP-101", "--kind", "destressed", "--date", "2024-02-03", "--neutral", "95 degC"], "did you mean '95 degF'"),
     (["KP-101", "--kind", "note", "--date", "2024-02-03", "--corrects", "500"], "no entry 500"),
     (["KP-101", "--kind", "destressed", "--date", "2024-02-03", "--neutral", "30"], None),  # bare number: fine
 ])
@@ -181,7 +182,8 @@ def test_due_export_verify_and_env(run_cli, db, tmp_path, monkeypatch):
     res = run_cli("register", "export", "--out", out, "--db", db)
     assert res.exit_code == 0, res.output
     rows = list(csv.DictReader((out / "entries.csv").open()))
-    assert len(rows) == _count(db) and {p.name for p in out.iterdir()} == {"meta.csv", "sections.csv", "entries.csv"}
+    assert len(rows) == _count(db) and {p.name for p in out.iterdir()} == {
+        "meta.csv", "sections.csv", "entries.csv", "trackplan-files.json"}  # the output set's manifest, written last
     monkeypatch.setenv("TRACKPLAN_DB", str(db))
     res, v = run_cli("register", "verify", "--json", json_out=True)
     assert res.exit_code == 0 and v["ok"] and v["entries"] == len(rows)

@@ -216,7 +216,7 @@ neutral_temperature = "12 degC"
 @pytest.mark.parametrize("args,words", [
     (["--months", "13-2"], "month range"),
     (["--from", "1990-02-30"], "YYYY-MM-DD"),
-    (["--from", "1990-06-01", "--to", "1990-05-01"], "after --to"),
+    (["--from", "1990-06-01", "--to", "1990-05-01"], "--from/--to: the first day 1990-06-01 is after the last day"),
     (["--watch-fraction", "1.5"], "--watch-fraction"),
     (["--warming", "1.5 degC"], "--warming"),
     (["--neutral-override", "90 degC"], "--neutral-override"),

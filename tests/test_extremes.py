@@ -274,7 +274,7 @@ def test_years_from_reader_restrict():
 
 def test_bad_inputs():
     d = _daily(years=5)
-    with pytest.raises(InputError, match="--return-period"):
+    with pytest.raises(InputError, match="^return_period"):
         ex.design_extremes(d, 1.0)
     with pytest.raises(InputError, match="accepted: gumbel, gev"):
         ex.design_extremes(d, 50, "weibull")

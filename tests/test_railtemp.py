@@ -416,9 +416,9 @@ def test_heat_balance_daily_from_hourly():
 
 
 def test_site_validation():
-    with pytest.raises(InputError, match="--lat"):
+    with pytest.raises(InputError, match="^latitude"):
         rt.RailSite(95.0, 0.0)
-    with pytest.raises(InputError, match="--shade"):
+    with pytest.raises(InputError, match="^shade"):
         rt.RailSite(40.0, 0.0, shade_factor=1.5)
-    with pytest.raises(InputError, match="--lon"):
+    with pytest.raises(InputError, match="^longitude"):
         rt.RailSite(40.0, 200.0)

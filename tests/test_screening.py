@@ -144,11 +144,11 @@ def test_options_validation():
         screening.ScreenOptions(start=dt.date(2020, 5, 1), end=dt.date(2020, 4, 1)).validate()
     with pytest.raises(InputError, match="YYYY-MM-DD"):
         screening.parse_date("2020-02-30", "--from")
-    with pytest.raises(InputError, match="--watch-fraction"):
+    with pytest.raises(InputError, match="^watch_fraction"):  # a field; the command line names its option
         screening.ScreenOptions(watch_fraction=1.2).validate()
-    with pytest.raises(InputError, match="--warming"):
+    with pytest.raises(InputError, match="^warming"):
         screening.ScreenOptions(warming_K=25.0).validate()
-    with pytest.raises(InputError, match="--neutral-override"):
+    with pytest.raises(InputError, match="^neutral_override"):
         screening.ScreenOptions(neutral_override_C=75.0).validate()
 
 

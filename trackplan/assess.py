@@ -142,10 +142,20 @@ class Assessor:
         mapping = columns.merge(base, self.columns)
         tz = self.tz or (section.climate_tz if section is not None else None)
         site = (section.latitude_deg, section.longitude_deg) if section is not None else None
-        key = self.record_key(path, section)
+        confirmed = bool(section.climate_units_confirmed) if section is not None else False
+        key = self.record_key(path, section) + (confirmed,)
         if key not in self._records:
-            self._records[key] = weather.read_record(path, where=where, columns=mapping, tz=tz, site=site)
-        return self._records[key]
+            try:
+                self._records[key] = weather.read_record(path, where=where, columns=mapping, tz=tz, site=site,
+                                                         units_confirmed=confirmed)
+            except InputError as exc:
+                self._records[key] = (where, exc)  # a bad record is read once, reported for each section
+        hit = self._records[key]
+        if isinstance(hit, tuple) and len(hit) == 2 and isinstance(hit[1], InputError):
+            label, exc = hit
+            w = exc.where or ""
+            raise exc.relocated(where + w[len(label):]) if w.startswith(label) else exc
+        return hit
 
     def record_key(self, path: Path, section: Section | None) -> tuple:
         """What a record read depends on: file, column mapping, zone; the site only through the
@@ -179,7 +189,7 @@ class Assessor:
         """Daily rail extremes for the section (cached; azimuth rounded to the step)."""
         from trackplan import railtemp
 
-        where = f"{section.file.name} [sections.{section.id}] climate"
+        where = f"{section.file.name} [sections.{section.id}] climate {section.climate_path.name}"
         df, meta = self.record(section.climate_path, where, section)
         site = self.site_for(section, meta)
         key = (self.record_key(section.climate_path, section), round(site.latitude_deg, 4), round(site.longitude_deg, 4),
@@ -314,9 +324,33 @@ class Assessor:
         for i in indices:
             try:
                 part[i] = self.assess(sections[i])
-            except InputError as exc:
-                part[i] = exc
+            except Exception as exc:  # every failure is a problem of this section; the others go on
+                part[i] = section_problem(sections[i], exc)
         return part
+
+
+#: Field names of the computation modules -> the section file's name of the same field.
+SECTION_FIELDS = {"lat": "latitude", "lon": "longitude", "azimuth": "track_azimuth"}
+
+
+def section_problem(section: Section, exc: BaseException) -> InputError:
+    """A failure while assessing ``section`` as a problem of that section (file, section, field).
+
+    An :class:`InputError` that already names a place in a file is kept; one raised by a
+    computation module (naming a field, or nothing) is placed in the section; anything
+    unforeseen becomes an error of the section that says it is an internal fault.
+    """
+    from trackplan.errors import excerpt
+
+    where = f"{section.file.name} [sections.{section.id}]"
+    if isinstance(exc, InputError):
+        if exc.where is None:
+            return exc.relocated(where)
+        if exc.field is not None and exc.where == exc.field:
+            return exc.relocated(f"{where} {SECTION_FIELDS.get(exc.field, exc.field)}")
+        return exc
+    return InputError(f"could not be assessed: internal error {type(exc).__name__}: {excerpt(exc, 120)} "
+                      "(a fault in trackplan; please report it with the section file)", where)
 
 
 #: Runs with at least this many sections share the climate records between processes.
@@ -391,3 +425,8 @@ def _solve_track(inp):
         return stability.analyse_stability(inp)
     except InputError as exc:
         return exc
+    except Exception as exc:  # returned, so that one track cannot stop the pool
+        from trackplan.errors import excerpt
+
+        return InputError(f"the stability analysis failed: internal error {type(exc).__name__}: "
+                          f"{excerpt(exc, 120)} (a fault in trackplan; please report it)")

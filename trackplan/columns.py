@@ -29,7 +29,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
-from trackplan.errors import InputError
+from trackplan.errors import InputError, excerpt
 
 #: Quantity names a mapping may use -> canonical column (``time`` is the timestamp column).
 CANONICAL = {
@@ -84,7 +84,7 @@ def parse_spec(text: str, where: str) -> ColumnMap:
     """Read ``NAME="SOURCE [UNIT]"`` (the ``--column`` option)."""
     m = _SPEC_RE.match(str(text))
     if not m or not m.group(2):
-        raise InputError(f"cannot read {text!r}; write QUANTITY=\"COLUMN [UNIT]\", e.g. "
+        raise InputError(f"cannot read {excerpt(text)}; write QUANTITY=\"COLUMN [UNIT]\", e.g. "
                          "\"tmax=temp_max [degC]\"", where)
     return _mapping(m.group(1), m.group(2).strip().strip('"').strip("'"), where)
 
@@ -92,7 +92,7 @@ def parse_spec(text: str, where: str) -> ColumnMap:
 def _mapping(name: str, source_text: str, where: str) -> ColumnMap:
     key = norm(name)
     if key not in CANONICAL:
-        raise InputError(f"unknown quantity {name!r}; accepted: {', '.join(CANONICAL)}", where)
+        raise InputError(f"unknown quantity {excerpt(name)}; accepted: {', '.join(CANONICAL)}", where)
     m = _SOURCE_RE.match(source_text)
     source = (m.group(1) if m else source_text).strip()
     unit = (m.group(2) or "").strip() if m else ""
@@ -116,7 +116,7 @@ def parse_table(table, where: str) -> dict[str, ColumnMap]:
     out = []
     for k, v in table.items():
         if not isinstance(v, str):
-            raise InputError(f"expected text \"COLUMN [UNIT]\" for {k}, got {v!r}", f"{where}.{k}")
+            raise InputError(f"expected text \"COLUMN [UNIT]\" for {k}, got {excerpt(v)}", f"{where}.{k}")
         out.append(_mapping(k, v, f"{where}.{k}"))
     return _collect(out)
 
@@ -128,10 +128,10 @@ def _collect(maps: list[ColumnMap]) -> dict[str, ColumnMap]:
     for cm in maps:
         col = CANONICAL[cm.name]
         if col in by_col:
-            raise InputError(f"two columns mapped to {cm.name}: {by_col[col].source!r} and {cm.source!r}; "
+            raise InputError(f"two columns mapped to {cm.name}: {excerpt(by_col[col].source)} and {excerpt(cm.source)}; "
                              "map each quantity once", cm.where)
         if cm.source in by_source:
-            raise InputError(f"column {cm.source!r} mapped twice ({by_source[cm.source].name} and {cm.name}); "
+            raise InputError(f"column {excerpt(cm.source)} mapped twice ({by_source[cm.source].name} and {cm.name}); "
                              "map each column once", cm.where)
         by_col[col] = cm
         by_source[cm.source] = cm
@@ -169,8 +169,8 @@ def _find(names: list[str], source: str, where: str) -> int:
     bare = [norm(_SOURCE_RE.match(n).group(1)) for n in names]
     if norm(source) in bare and bare.count(norm(source)) == 1:
         return bare.index(norm(source))
-    raise InputError(f"no column {source!r} in the file; its columns are: "
-                     + ", ".join(repr(n) for n in names), where)
+    raise InputError(f"no column {excerpt(source)} in the file; its columns are: "
+                     + _column_list(names), where)
 
 
 def resolve_header(names: list[str], mapping: dict[str, ColumnMap] | None, quantities: dict,
@@ -206,7 +206,7 @@ def resolve_header(names: list[str], mapping: dict[str, ColumnMap] | None, quant
         m = _SOURCE_RE.match(names[i])
         unit = cm.unit or ((m.group(2) or "").strip() if m else "")
         if not unit:
-            raise InputError(f"no unit for {name} (column {names[i]!r}): write it in brackets, "
+            raise InputError(f"no unit for {name} (column {excerpt(names[i])}): write it in brackets, "
                              f"e.g. {name}=\"{cm.source} [degC]\" (the unit the file's source states)", cm.where)
         taken[i] = (name, unit, cm.where)
     if time_index is None:
@@ -216,7 +216,7 @@ def resolve_header(names: list[str], mapping: dict[str, ColumnMap] | None, quant
                 break
     if time_index is None:
         raise InputError("no timestamp column; name it 'time' or 'date', or map it with "
-                         f"--column \"time=COLUMN\" (the columns are: {', '.join(repr(n) for n in names)})",
+                         f"--column \"time=COLUMN\" (the columns are: {_column_list(names)})",
                          where_header)
     mapped_cols = {quantities[n].column if n in quantities else CANONICAL[n] for n, _, _ in taken.values()}
     ignored = []
@@ -229,7 +229,7 @@ def resolve_header(names: list[str], mapping: dict[str, ColumnMap] | None, quant
             qname = recognised(h)  # a common name (temp_max, TMAX, tasmax...) with its unit in the header
         q = quantities.get(qname)
         if q is not None and unit and q.column not in mapped_cols:
-            taken[i] = (qname, unit, f"{where_header} column {i + 1} {h!r}")
+            taken[i] = (qname, unit, f"{where_header} column {i + 1} {excerpt(h)}")
             mapped_cols.add(q.column)
             continue
         ignored.append(h)
@@ -240,7 +240,7 @@ def resolve_header(names: list[str], mapping: dict[str, ColumnMap] | None, quant
         q = quantities.get(name) or quantities.get(norm(name))
         col = q.column
         if col in seen:
-            raise InputError(f"two columns for {col}: {seen[col]!r} and {names[i]!r}; map the one to read "
+            raise InputError(f"two columns for {col}: {excerpt(seen[col])} and {excerpt(names[i])}; map the one to read "
                              f"with --column, e.g. \"{name}={names[i]} [{unit}]\"", w)
         seen[col] = names[i]
         cols[names[i]] = (name, unit, w)
@@ -301,7 +301,7 @@ def csv_plan(names: list[str], mapping, quantities: dict, where_header: str):
             except InputError as exc:
                 if " is not a " not in exc.bare_message:
                     raise InputError(exc.bare_message, w) from None
-                raise InputError(f"unit [{unit}] of {name} (column {h!r}) is not a {q.kind} unit; accepted: "
+                raise InputError(f"unit [{unit}] of {name} (column {excerpt(h)}) is not a {q.kind} unit; accepted: "
                                  + ", ".join(units.accepted_units(q.kind)), w) from None
         cand[h] = (q, unit, w, h in mapped or any(norm(h) == norm(m) for m in mapped))
     return names[hdr.time_index], cand, list(hdr.ignored)
@@ -337,7 +337,7 @@ def step_of(tcol, lines, ctx):
     ok = t.notna().to_numpy()
     if ok.sum() < 1:
         i = 0
-        raise InputError(f"cannot read {tcol.iloc[i]!r} as a date or ISO 8601 timestamp "
+        raise InputError(f"cannot read {excerpt(tcol.iloc[i])} as a date or ISO 8601 timestamp "
                          "(e.g. 1995-07-01 or 1995-07-01T14:00)", ctx.at(int(lines[i])))
     v = pd.DatetimeIndex(t[ok])
     midnight = bool((v == v.normalize()).all())
@@ -363,7 +363,7 @@ def csv_keep(used: dict, cand: dict, ignored: list, names: list, step_kind: str,
         q, unit, w, mapped = cand[h]
         if q.step not in ("any", step_kind):
             if mapped:
-                raise InputError(f"{h!r} is a {q.step} quantity, but the timestamps make this a {step_kind} "
+                raise InputError(f"{excerpt(h)} is a {q.step} quantity, but the timestamps make this a {step_kind} "
                                  "record", w)
             ignored.append(h)
             continue
@@ -376,10 +376,10 @@ def csv_keep(used: dict, cand: dict, ignored: list, names: list, step_kind: str,
             for h in ignored:
                 if recognised(h) == n and not _SOURCE_RE.match(h).group(2):
                     raise InputError(
-                        f"column {h!r} has no unit (read as {n}); write its unit with "
+                        f"column {excerpt(h)} has no unit (read as {n}); write its unit with "
                         f'--column "{n}={_SOURCE_RE.match(h).group(1).strip()} [degC]" (or [degF], [K]: '
                         "the unit the file's source states; a unit is never guessed)",
-                        f"{where_header} column {names.index(h) + 1} {h!r}")
+                        f"{where_header} column {names.index(h) + 1} {excerpt(h)}")
         wanted = "air_temperature" if step_kind == "hourly" else "tmax and tmin"
         raise InputError(f"no column for {', '.join(missing)}: a {step_kind} record (from its timestamps) needs "
                          f"{wanted} with a unit; map them with --column, e.g. "
@@ -400,7 +400,7 @@ def zone_text(tz_text, tz_where, ctx, step_kind: str = "hourly"):
     the file's own, else the nominal zone of the site's longitude (``round(lon / 15)`` h)."""
     if ctx.tz is not None:
         if tz_text is not None and tz_text.strip() != ctx.tz.strip():
-            ctx.warn(f"the file says time zone {tz_text!r}; {ctx.tz!r} given for the record is used",
+            ctx.warn(f"the file says time zone {excerpt(tz_text)}; {ctx.tz!r} given for the record is used",
                      code="time_zone")
         return ctx.tz, "--tz / tz"
     if tz_text is not None or ctx.site_lon is None:
@@ -413,3 +413,9 @@ def zone_text(tz_text, tz_where, ctx, step_kind: str = "hourly"):
     ctx.warn(f"the file states no time zone; naive timestamps read as {text}, the nominal zone of the site's "
              f"longitude {ctx.site_lon:g} (give --tz, or tz in the section file, to be sure)", code="time_zone")
     return text, "site longitude"
+
+
+def _column_list(names, limit: int = 12) -> str:
+    """The file's column names for a message: short excerpts, at most ``limit`` of them."""
+    shown = ", ".join(excerpt(n) for n in names[:limit])
+    return shown + (f" and {len(names) - limit} more" if len(names) > limit else "")

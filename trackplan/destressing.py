@@ -79,6 +79,8 @@ RAIL_TEMPERATURE_RANGE_C = (-50.0, 90.0)
 #: default criterion. Confirm the figure in your railway's CWR procedure; the
 #: reference marks are the check that the pull did reach the whole length.
 MAX_PULL_LENGTH_M = 400.0
+#: Most reference marks on one pulled length (a crew sheet lists every mark).
+MAX_MARKS = 1000
 
 #: A what-if result further than this from the target is repeated as a warning [K].
 #: A reporting threshold of the project, not a tolerance from any standard: the
@@ -287,7 +289,7 @@ def achieved_neutral_temperature(observed_movement_m, at_mark_m, base_temperatur
     """
     x = np.asarray(at_mark_m, dtype=float)
     if np.any(~(x > 0)):
-        raise InputError("the mark must be at a positive distance from the fixed end", "--at-mark")
+        raise InputError("the mark must be at a positive distance from the fixed end", field="at_mark")
     return base_temperature_C + np.asarray(observed_movement_m, dtype=float) / (alpha_per_K * x)
 
 
@@ -318,7 +320,7 @@ def heating_temperature(rail_temperature_C, closing_m, length_m, alpha_per_K: fl
     uniformly to the target and clipped there is neutral at the target.
     """
     if not length_m > 0:
-        raise InputError("the heated length must be positive", "--length")
+        raise InputError("the heated length must be positive", field="length")
     return rail_temperature_C + closing_m / (alpha_per_K * length_m)
 
 
@@ -585,9 +587,9 @@ class DestressPlan:
         return out
 
 
-def _check_range(value: float, lo: float, hi: float, what: str, why: str, where: str) -> None:
+def _check_range(value: float, lo: float, hi: float, what: str, why: str, field: str) -> None:
     if not lo <= value <= hi:
-        raise InputError(f"{what} {value:.1f} degC is outside {lo:g}..{hi:g} degC: {why}", where)
+        raise InputError(f"{what} {value:.1f} degC is outside {lo:g}..{hi:g} degC: {why}", field=field)
 
 
 def mark_positions(pulled_length_m: float, spacing_m: float) -> np.ndarray:
@@ -693,34 +695,34 @@ def plan_destressing(
     of Railway Track Engineering*, CWR chapter.
     """
     if mode not in MODES:
-        raise InputError(f"unknown mode {mode!r}; accepted: {', '.join(MODES)}", "--mode")
+        raise InputError(f"unknown mode {mode!r}; accepted: {', '.join(MODES)}", field="mode")
     if pull not in PULLS:
-        raise InputError(f"unknown pulling arrangement {pull!r}; accepted: {', '.join(PULLS)}", "--pull")
+        raise InputError(f"unknown pulling arrangement {pull!r}; accepted: {', '.join(PULLS)}", field="pull")
     if not (math.isfinite(length_m) and length_m > 0):
-        raise InputError(f"the string length must be positive, got {length_m:g} m (e.g. '400 m')", "--length")
+        raise InputError(f"the string length must be positive, got {length_m:g} m (e.g. '400 m')", field="length")
     thermal.check_steel(E_Pa, alpha_per_K)
     if not area_m2 > 0:
-        raise InputError("the rail area must be positive", "--rail")
+        raise InputError("the rail area must be positive", field="rail")
     _check_range(rail_temperature_C, *RAIL_TEMPERATURE_RANGE_C, "rail temperature",
-                 "no rail on a track is that cold or hot; check the unit (degC or degF)", "--rail-temp")
+                 "no rail on a track is that cold or hot; check the unit (degC or degF)", field="rail_temp")
     if current_neutral_C is not None:
         _check_range(current_neutral_C, *CURRENT_NEUTRAL_RANGE_C, "current neutral temperature",
-                     "a measured or recorded neutral temperature is never that far out; check the unit", "--current-neutral")
+                     "a measured or recorded neutral temperature is never that far out; check the unit", field="current_neutral")
     if mode in ("restrained", "repair") and current_neutral_C is None and not (mode == "repair" and opening_m is not None):
         what = "the current neutral temperature" if mode == "restrained" else "the neutral temperature before the break"
-        raise InputError(f"{mode} mode needs {what}, e.g. --current-neutral '20 degC'", "--current-neutral")
+        raise InputError(f"{mode} mode needs {what}, e.g. current_neutral '20 degC'", field="current_neutral")
     if target_neutral_C is None:
         if mode == "repair" and current_neutral_C is not None:
             target_neutral_C = current_neutral_C
         else:
-            raise InputError("a target neutral temperature is required, e.g. --target '27 degC'", "--target")
+            raise InputError("a target neutral temperature is required, e.g. target '27 degC'", field="target")
     _check_range(target_neutral_C, *TARGET_RANGE_C, "target neutral temperature",
                  "CWR is not set to a neutral temperature outside this range (a value outside is usually "
-                 "a unit slip, e.g. a degF figure given as degC)", "--target")
+                 "a unit slip, e.g. a degF figure given as degC)", field="target")
     if tensor_capacity_N is not None and not tensor_capacity_N > 0:
-        raise InputError("the tensor capacity must be positive, e.g. '600 kN'", "--tensor-capacity")
+        raise InputError("the tensor capacity must be positive, e.g. '600 kN'", field="tensor_capacity")
     if not max_pull_length_m > 0:
-        raise InputError("the longest pulled length must be positive, e.g. '400 m'", "--max-pull")
+        raise InputError("the longest pulled length must be positive, e.g. '400 m'", field="max_pull")
     weld = weld or weld_presets()["aluminothermic"]
 
     t_r, t_t = float(rail_temperature_C), float(target_neutral_C)
@@ -739,27 +741,27 @@ def plan_destressing(
             raise InputError(
                 "repair mode needs either the removed length (--removed, measured with the rail still clipped) "
                 "or the opening between the freed rail ends (--opening), not both",
-                "--removed/--opening",
+                field="removed/opening",
             )
         if removed_length_m is not None:
             if not removed_length_m > 0:
-                raise InputError("the removed length must be positive, e.g. '4.5 m'", "--removed")
+                raise InputError("the removed length must be positive, e.g. '4.5 m'", field="removed")
             if removed_length_m >= length_m:
                 raise InputError(
-                    "the removed length must be shorter than the length between the fixed points (--length)", "--removed"
+                    "the removed length must be shorter than the length between the fixed points", field="removed"
                 )
             removed = float(removed_length_m)
             opening = repair_opening(removed, length_m, current_neutral_C, t_r, alpha_per_K)
         else:
             if not opening_m > 0 or opening_m >= length_m:
-                raise InputError("the opening must be positive and shorter than --length", "--opening")
+                raise InputError("the opening must be positive and shorter than the length between the fixed points", field="opening")
             opening = float(opening_m)
         closure = closure_length(opening, length_m, t_t, t_r, alpha_per_K, weld.allowance_m, n_welds)
         if not closure > 0:
             raise InputError(
                 f"the closure rail would be {closure * 1e3:.0f} mm long: the opening is too small for "
                 f"{n_welds} welds of this process; cut a longer opening",
-                "--removed/--opening",
+                field="removed/opening",
             )
         cut = opening - closure  # equals extension + n_welds * allowance
 
@@ -777,15 +779,19 @@ def plan_destressing(
         spacing = min(50.0, lp)
     else:
         if not mark_spacing_m > 0:
-            raise InputError("the mark spacing must be positive, e.g. '50 m'", "--marks")
+            raise InputError("the mark spacing must be positive, e.g. '50 m'", field="marks")
         if mark_spacing_m > lp * (1 + 1e-9):
             half = " (half the string, for a pull towards a central cut)" if pull == "centre" else ""
             raise InputError(
                 f"mark spacing {units.fmt(mark_spacing_m, 'length', system)} is longer than the pulled length "
                 f"{units.fmt(lp, 'length', system)}{half}; choose a spacing of at most the pulled length",
-                "--marks",
+                field="marks",
             )
         spacing = float(mark_spacing_m)
+    if lp / spacing > MAX_MARKS:
+        raise InputError(f"a mark spacing of {units.fmt(spacing, 'length', system, 3)} puts more than {MAX_MARKS} "
+                         f"marks on the pulled length {units.fmt(lp, 'length', system)}; choose a wider spacing "
+                         "(marks are usually 25-100 m apart)", field="marks")
     xs = mark_positions(lp, spacing)
     moves = mark_movements(xs, base, t_t, alpha_per_K)
     marks = [(float(x), float(m)) for x, m in zip(xs, moves)]
@@ -793,13 +799,13 @@ def plan_destressing(
     achieved = expected_at = None
     if (observed_movement_m is None) != (at_mark_m is None):
         raise InputError("give both --observed-movement and --at-mark (the mark's distance from its fixed end)",
-                         "--observed-movement/--at-mark")
+                         field="observed_movement/at_mark")
     if at_mark_m is not None:
         if not 0 < at_mark_m <= lp * (1 + 1e-9):
             raise InputError(
                 f"the mark must lie on the pulled length, between 0 and {units.fmt(lp, 'length', system)} "
                 "from its fixed end",
-                "--at-mark",
+                field="at_mark",
             )
         achieved = float(achieved_neutral_temperature(observed_movement_m, at_mark_m, base, alpha_per_K))
         if not TARGET_RANGE_C[0] - 20.0 <= achieved <= TARGET_RANGE_C[1] + 20.0:
@@ -807,7 +813,7 @@ def plan_destressing(
                 f"a movement of {units.fmt(observed_movement_m, 'short_length', system)} at "
                 f"{units.fmt(at_mark_m, 'length', system)} would mean a neutral temperature of {achieved:.0f} degC, "
                 "which no pull can reach: check the reading and its unit (e.g. '40 mm')",
-                "--observed-movement",
+                field="observed_movement",
             )
         expected_at = float(mark_movements(at_mark_m, base, t_t, alpha_per_K))
 

@@ -65,6 +65,9 @@ import numpy as np
 from trackplan.errors import InputError
 from trackplan.notices import Notice
 
+#: Longest return period extrapolated from a record [years] (sections accept 2..1000).
+MAX_RETURN_PERIOD_YEARS = 10_000.0
+
 #: Fewer complete years than this: design values are the observed extremes.
 MIN_FIT_YEARS = 3
 #: Fewer complete years than this: the fit is made, with a warning.
@@ -505,8 +508,7 @@ def fit_extremes(values, distribution: str = "gumbel", tail: str = "max", ci_met
     information (numerical Hessian of the negative log-likelihood).
     """
     if distribution not in DISTRIBUTIONS:
-        raise InputError(f"unknown distribution {distribution!r}; accepted: {', '.join(DISTRIBUTIONS)}",
-                         "--distribution")
+        raise InputError(f"unknown distribution {distribution!r}; accepted: {', '.join(DISTRIBUTIONS)}", field="distribution")
     if tail not in ("max", "min"):
         raise ValueError("tail must be 'max' or 'min'")
     x = np.asarray(values, dtype=float)
@@ -770,11 +772,12 @@ def design_extremes(daily, return_period_years: float = 50, distribution: str = 
     """
     rp = float(return_period_years)
     if not math.isfinite(rp) or rp <= 1.0:
-        raise InputError(f"return period must be more than 1 year, got {return_period_years!r}",
-                         "--return-period")
+        raise InputError(f"return period must be more than 1 year, got {return_period_years!r}", field="return_period")
+    if rp > MAX_RETURN_PERIOD_YEARS:
+        raise InputError(f"return period {rp:g} years is beyond {MAX_RETURN_PERIOD_YEARS:g} years; no record of "
+                         "decades supports such an extrapolation (design values use 50 years)", field="return_period")
     if distribution not in DISTRIBUTIONS:
-        raise InputError(f"unknown distribution {distribution!r}; accepted: {', '.join(DISTRIBUTIONS)}",
-                         "--distribution")
+        raise InputError(f"unknown distribution {distribution!r}; accepted: {', '.join(DISTRIBUTIONS)}", field="distribution")
     if not 0 < ci_level < 1:
         raise InputError(f"confidence level must be between 0 and 1, got {ci_level!r}", "ci_level")
     warnings = list(getattr(daily, "attrs", {}).get("warnings", []))

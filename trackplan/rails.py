@@ -27,7 +27,7 @@ from importlib import resources
 from pathlib import Path
 
 from trackplan import units
-from trackplan.errors import InputError
+from trackplan.errors import InputError, excerpt
 
 #: Density of rail steel used for the EN mass per metre [kg/m**3] (EN 13674-1).
 DENSITY_EN_KG_M3 = 7850.0
@@ -164,15 +164,14 @@ def load_user_profiles(path: str | Path) -> dict[str, RailProfile]:
     InputError
         Unreadable file, missing field, value without a unit, wrong dimension.
     """
-    path = Path(path)
+    from trackplan import safeio
+
+    path = safeio.check_path(path, "profiles file")
+    text = safeio.read_text(path, str(path))
     try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError("file not found", str(path)) from None
-    except IsADirectoryError:
-        raise InputError("is a folder; give a TOML file of profiles", str(path)) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read the file ({exc})", str(path)) from None
+        data = tomllib.loads(text)
+    except RecursionError:
+        raise InputError("not valid TOML for trackplan (values nested too deeply)", str(path)) from None
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML ({exc})", str(path)) from None
     tables = data.get("profiles")
@@ -216,7 +215,7 @@ def load_user_profiles(path: str | Path) -> dict[str, RailProfile]:
 def get_profile(
     name: str,
     extra: dict[str, RailProfile] | None = None,
-    where: str = "--rail",
+    where: str | None = None,
 ) -> RailProfile:
     """Look a profile up by name (case-insensitive), in ``extra`` first.
 
@@ -237,9 +236,10 @@ def get_profile(
     close = difflib.get_close_matches(name.upper(), list(pool), n=3, cutoff=0.5)
     hint = f" Did you mean {', '.join(close)}?" if close else ""
     raise InputError(
-        f"unknown rail profile {name!r}.{hint} Known profiles: {', '.join(pool)} "
+        f"unknown rail profile {excerpt(name)}.{hint} Known profiles: {', '.join(pool)} "
         "(add your own with a profiles TOML file)",
         where,
+        field="rail",
     )
 
 

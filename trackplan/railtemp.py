@@ -28,7 +28,8 @@ Many sections share a few climate records, so everything that depends only on
 the record and the place (solar position, beam/diffuse split, local dates) is
 computed once by :func:`prepare_solar` and reused for every rail and track
 orientation; :func:`daily_rail_extremes` keeps the last few prepared records in
-a small cache keyed by record path and place.
+a small cache keyed by record path, file size and modification time, a digest
+of the values, and place.
 
 Calibration (what was tuned, against what)
 -------------------------------------------
@@ -93,7 +94,7 @@ from typing import Callable
 
 import numpy as np
 
-from trackplan.errors import InputError
+from trackplan.errors import InputError, excerpt
 from trackplan.rails import RailProfile
 
 #: Stefan-Boltzmann constant [W/(m**2 K**4)] (CODATA 2018).
@@ -148,19 +149,19 @@ class RailSite:
 
     def __post_init__(self):
         checks = [
-            ("latitude_deg", -90.0, 90.0, "--lat", "a latitude between -90 and 90 deg"),
-            ("longitude_deg", -180.0, 180.0, "--lon", "a longitude between -180 and 180 deg"),
+            ("latitude_deg", -90.0, 90.0, "latitude", "a latitude between -90 and 90 deg"),
+            ("longitude_deg", -180.0, 180.0, "longitude", "a longitude between -180 and 180 deg"),
             ("elevation_m", -500.0, 9000.0, "elevation", "an elevation between -500 and 9000 m"),
-            ("shade_factor", 0.0, 1.0, "--shade", "a shade factor from 0 (open sky) to 1 (tunnel)"),
+            ("shade_factor", 0.0, 1.0, "shade", "a shade factor from 0 (open sky) to 1 (tunnel)"),
             ("absorptivity", 0.0, 1.0, "absorptivity", "an absorptivity from 0 to 1"),
             ("emissivity", 0.0, 1.0, "emissivity", "an emissivity from 0 to 1"),
         ]
         for name, lo, hi, where, what in checks:
             v = getattr(self, name)
             if not isinstance(v, (int, float)) or not math.isfinite(v) or not lo <= v <= hi:
-                raise InputError(f"{v!r} is out of range; give {what}", where)
+                raise InputError(f"{v!r} is out of range; give {what}", field=where)
         if not math.isfinite(self.track_azimuth_deg):
-            raise InputError("track azimuth must be a finite angle in degrees from north", "--azimuth")
+            raise InputError("track azimuth must be a finite angle in degrees from north", field="track_azimuth")
 
 
 @dataclass(frozen=True)
@@ -275,7 +276,7 @@ def rail_geometry(profile: RailProfile, params: HeatBalanceParameters = DEFAULT_
     """
     H, b, w = profile.height_m, profile.foot_width_m, profile.head_width_m
     if not (H > 0 and b > 0 and w > 0 and profile.mass_kg_per_m > 0):
-        raise InputError(f"rail profile {profile.name} needs positive height, widths and mass", "--rail")
+        raise InputError(f"rail profile {profile.name} needs positive height, widths and mass", field="rail")
     half = max((b - w) / 2.0, 0.0)
     L = math.hypot(H, half)
     return RailGeometry(
@@ -931,11 +932,12 @@ _CACHE_SIZE = 4
 
 
 def _prepared_for(df, meta: dict, site: RailSite, params: HeatBalanceParameters) -> PreparedRecord:
-    """:func:`prepare_solar` through a small cache keyed by record path, size, span and place."""
+    """:func:`prepare_solar` through a small cache keyed by record path, file size and modification
+    time, length, span and place (a record edited in place is never answered from the cache)."""
     path = meta.get("path")
     if path is None:
         return prepare_solar(df, meta, site, params)
-    key = (str(path), len(df), str(df.index[0]) if len(df) else "", str(df.index[-1]) if len(df) else "",
+    key = (str(path), tuple(meta.get("file_stamp") or ()), _content_digest(df), len(df), str(df.index[0]) if len(df) else "", str(df.index[-1]) if len(df) else "",
            round(site.latitude_deg, 6), round(site.longitude_deg, 6), round(site.elevation_m, 1), params)
     hit = _CACHE.get(key)
     if hit is not None:
@@ -946,6 +948,18 @@ def _prepared_for(df, meta: dict, site: RailSite, params: HeatBalanceParameters)
     while len(_CACHE) > _CACHE_SIZE:
         _CACHE.popitem(last=False)
     return prep
+
+
+def _content_digest(df) -> str:
+    """A digest of the record's index and values (a frame edited in memory is a new record)."""
+    import hashlib
+
+    h = hashlib.blake2b(digest_size=16)
+    h.update(np.ascontiguousarray(df.index.asi8).tobytes())
+    for col in df.columns:
+        h.update(str(col).encode())
+        h.update(np.ascontiguousarray(df[col].to_numpy(dtype=float)).tobytes())
+    return h.hexdigest()
 
 
 def clear_prepared_cache() -> None:
@@ -1344,13 +1358,13 @@ def resolve_method(method: str, meta: dict, df=None) -> str:
     if method == "auto":
         return "heat-balance" if step == "hourly" else "daily-extremes"
     if method not in METHODS:
-        raise InputError(f"unknown rail temperature method {method!r}; accepted: {', '.join(method_names())}",
-                         "--method")
+        raise InputError(f"unknown rail temperature method {excerpt(method)}; accepted: {', '.join(method_names())}",
+                         field="rail_temperature_method")
     if step not in METHODS[method].time_steps:
         raise InputError(
             f"method {method!r} needs a record with time step {' or '.join(METHODS[method].time_steps)}, "
-            f"but this record is {step!r}; use --method daily-extremes or auto",
-            "--method",
+            f"but this record is {step!r}; use the method daily-extremes or auto",
+            field="rail_temperature_method",
         )
     return method
 

@@ -610,10 +610,15 @@ def open_register(db: str | Path | None = None, create: bool = False) -> Registe
         No such file (and not ``create``), not an SQLite file or not a
         register, a register of a newer schema version than this trackplan.
     """
+    from trackplan import safeio
+
     path = resolve_path(db)
     where = str(path)
+    safeio.check_path(path, where)
     if path.is_dir():
         raise InputError("is a folder; give the register's file (e.g. trackplan.sqlite)", where)
+    if path.exists() and not path.is_file():
+        raise InputError("is not a regular file (a pipe or a device?); give the register's file", where)
     if not path.exists():
         if not create:
             raise InputError("no register here; create one by importing a section file (trackplan register import)",

@@ -104,9 +104,12 @@ def history_figure(history, system: str = "si", today: dt.date | None = None):
 
 
 def csv_text(columns: list[str], rows: list[tuple]) -> str:
-    """A table as CSV text (header row, then the rows as stored)."""
+    """A table as CSV text (header row, then the rows as stored; text cells that a spreadsheet
+    would run as a formula get a leading apostrophe, :func:`trackplan.reports.neutralise_cell`)."""
+    from trackplan.reports import neutralise_cell
+
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow(columns)
-    w.writerows(["" if v is None else v for v in r] for r in rows)
+    w.writerow([neutralise_cell(c) for c in columns])
+    w.writerows(["" if v is None else neutralise_cell(v) for v in r] for r in rows)
     return buf.getvalue()

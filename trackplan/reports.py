@@ -1,19 +1,233 @@
-"""Writing results to files: atomically, never over an input.
+"""Writing results to files: whole sets atomically, never over an input.
 
-Every file trackplan writes goes first to a temporary name in the target folder
-and is then renamed into place (``os.replace``), so a crash never leaves half a
-file. :func:`prepare_out_dir` creates the output folder and refuses a folder
-that would put an output over one of the run's input files.
+Every file trackplan writes goes first to a temporary name and is then renamed
+into place (``os.replace``), so a crash never leaves half a file.
+
+**Output sets.** A command's ``--out`` folder receives its files as a set: while
+the command runs (inside :func:`output_session`, which the command line opens
+around every command), :func:`prepare_out_dir` makes a hidden staging folder
+inside the output folder (``.trackplan-staging-PID-...``) and every file goes
+there. Only when the command has finished without error are the files moved into
+place, one ``os.replace`` each, after removing the previous set's manifest; the
+manifest :data:`MANIFEST_NAME` (names, sizes and SHA-256 of the files, the
+command line, the time) is written last. A set without a manifest (a run killed
+while moving files) is incomplete; a run that fails or is stopped earlier leaves
+the previous set as it was. Staging folders of processes that no longer run are
+removed by the next run, and no ``.part`` file is left behind.
+
+**Safe names.** File names made from section ids go through :func:`safe_name`.
+
+**CSV cells.** Text cells that begin with ``=``, ``+``, ``-``, ``@``, a tab or a
+carriage return would be read as formulas by spreadsheet programs: they are
+written with a leading apostrophe (``'=cmd``), the usual neutralising of
+formula injection (numbers are written as numbers).
+
+**Writability.** :func:`check_writable` is called before any computation: a
+folder that cannot be written is named at once, not after the work.
 """
 
 from __future__ import annotations
 
+import contextlib
+import hashlib
+import json
 import os
+import re
+import shutil
 import tempfile
+import time
 from pathlib import Path
 from typing import Callable, Iterable
 
-from trackplan.errors import InputError
+from trackplan.errors import InputError, excerpt
+
+#: Name of the manifest written last into an output folder.
+MANIFEST_NAME = "trackplan-files.json"
+_STAGING_PREFIX = ".trackplan-staging-"
+#: Longest file name made from an id [characters], before its extension.
+MAX_NAME_CHARS = 80
+
+_SESSION: dict | None = None  # out folder (resolved) -> OutputSet, while a command runs
+
+
+def safe_name(text: str) -> str:
+    """A file-name part made from an id: letters, digits, ``.``, ``_`` and ``-`` kept, anything
+    else (``/``, spaces, control characters) as ``_``; at most :data:`MAX_NAME_CHARS`; a short
+    hash of the id is appended when anything was changed, so distinct ids keep distinct names.
+
+    Examples
+    --------
+    >>> safe_name("NV-101")
+    'NV-101'
+    >>> safe_name("a/b")
+    'a_b-3ec69c85'
+    """
+    text = str(text)
+    clean = re.sub(r"[^A-Za-z0-9._-]", "_", text).lstrip(".") or "_"
+    if clean == text and len(clean) <= MAX_NAME_CHARS:
+        return clean
+    digest = hashlib.sha1(text.encode("utf-8", "surrogateescape")).hexdigest()[:8]
+    return f"{clean[:MAX_NAME_CHARS]}-{digest}"
+
+
+def _out_label(out) -> str:
+    return f"--out {excerpt(str(out), 120)}" if len(str(out)) > 120 else f"--out {out}"
+
+
+def check_writable(out: str | Path, inputs: Iterable[str | Path] = ()) -> None:
+    """Refuse, before any work, an output folder that is an input or cannot be made or written.
+
+    Raises
+    ------
+    InputError
+        Naming the folder: not a folder, not writable, or a parent that cannot hold it.
+    """
+    from trackplan import safeio
+
+    where = _out_label(out)
+    p = safeio.check_path(out, where)
+    if p.exists() and p.resolve() in {Path(i).resolve() for i in inputs}:
+        raise InputError("is an input file; give a folder for the output files", where)
+    probe = p
+    while not probe.exists():
+        if probe.is_symlink():
+            raise InputError("is a broken symbolic link; give a folder for the output files", where)
+        parent = probe.parent
+        if parent == probe:
+            break
+        probe = parent
+    if probe.exists() and not probe.is_dir():
+        what = "exists and is not a folder" if probe == p else f"{excerpt(str(probe), 80)} is not a folder"
+        raise InputError(f"{what}; give a folder for the output files", where)
+    which = "the folder" if probe == p else f"the folder {excerpt(str(probe), 80)} that would hold it"
+    if not os.access(probe, os.W_OK | os.X_OK):
+        raise InputError(f"{which} is not writable; choose another --out folder", where)
+    try:  # the permission bits do not tell everything (read-only file systems, special folders)
+        fd, tmp = tempfile.mkstemp(prefix=".trackplan-probe-", dir=probe)
+        os.close(fd)
+        os.unlink(tmp)
+    except OSError as exc:
+        raise InputError(f"{which} is not writable ({exc.strerror}); choose another --out folder", where) from None
+
+
+class OutputSet:
+    """The files of one output folder of one run, staged and then moved into place together."""
+
+    def __init__(self, out: Path):
+        self.out = out
+        _remove_stale_staging(out)
+        self.staging = Path(tempfile.mkdtemp(prefix=f"{_STAGING_PREFIX}{os.getpid()}-", dir=out))
+        self.files: list[str] = []
+
+    def stage(self, name: str) -> Path:
+        if name not in self.files:
+            self.files.append(name)
+        return self.staging / name
+
+    def commit(self) -> None:
+        """Move the staged files into place, then write the manifest last."""
+        manifest = self.out / MANIFEST_NAME
+        manifest.unlink(missing_ok=True)
+        entries = []
+        for name in self.files:
+            src = self.staging / name
+            if not src.exists():
+                continue
+            data = src.read_bytes()
+            entries.append({"name": name, "bytes": len(data), "sha256": hashlib.sha256(data).hexdigest()})
+            os.replace(src, self.out / name)
+        doc = {"written_by": "trackplan", "command": _command_line(),
+               "time_utc": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()), "files": entries}
+        text = json.dumps(doc, indent=2) + "\n"
+        fd, tmp = tempfile.mkstemp(prefix=".manifest.", dir=self.staging)
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        _usual_mode(Path(tmp))
+        os.replace(tmp, manifest)
+        self.discard()
+
+    def discard(self) -> None:
+        shutil.rmtree(self.staging, ignore_errors=True)
+
+
+def _command_line() -> list[str]:
+    import sys
+
+    return ["trackplan", *sys.argv[1:]] if sys.argv and "trackplan" in Path(sys.argv[0]).name else []
+
+
+def _remove_stale_staging(out: Path) -> None:
+    """Remove staging folders left by runs that were killed (their process no longer exists)."""
+    try:
+        entries = list(out.iterdir())
+    except OSError:
+        return
+    for e in entries:
+        if not e.name.startswith(_STAGING_PREFIX) or not e.is_dir():
+            continue
+        try:
+            pid = int(e.name[len(_STAGING_PREFIX):].split("-", 1)[0])
+        except ValueError:
+            continue
+        alive = True
+        try:
+            os.kill(pid, 0)
+        except ProcessLookupError:
+            alive = False
+        except OSError:
+            pass
+        if not alive or pid == os.getpid():
+            shutil.rmtree(e, ignore_errors=True)
+
+
+@contextlib.contextmanager
+def output_session():
+    """Collect every output folder prepared inside the block as a set; move each set into place when
+    the block ends normally, discard the staged files when it raises (see the module docstring)."""
+    global _SESSION
+    if _SESSION is not None:  # nested: the outer session commits
+        yield
+        return
+    _SESSION = {}
+    try:
+        yield
+    except BaseException as exc:
+        if not _finished(exc):
+            sets, _SESSION = _SESSION, None
+            for st in sets.values():
+                st.discard()
+            raise
+        _commit_session()  # the command ended with its exit code (e.g. 1: a section to act on)
+        raise
+    _commit_session()
+
+
+def _finished(exc: BaseException) -> bool:
+    """Whether ``exc`` is a command ending normally with an exit code, not a failure."""
+    if isinstance(exc, SystemExit):
+        return True
+    try:
+        import click
+    except ImportError:  # pragma: no cover
+        return False
+    return isinstance(exc, click.exceptions.Exit)
+
+
+def _commit_session() -> None:
+    global _SESSION
+    sets, _SESSION = _SESSION, None
+    try:
+        for st in sets.values():
+            st.commit()
+    except OSError as exc:
+        for st in sets.values():
+            st.discard()
+        raise InputError(f"cannot move the output files into place ({exc.strerror})",
+                         _out_label(next(iter(sets.values())).out)) from None
+    except BaseException:
+        for st in sets.values():
+            st.discard()
+        raise
 
 
 def prepare_out_dir(out: str | Path, inputs: Iterable[str | Path] = (), planned: Iterable[str] = ()) -> Path:
@@ -22,28 +236,52 @@ def prepare_out_dir(out: str | Path, inputs: Iterable[str | Path] = (), planned:
     ``inputs`` are the run's input files: a folder that *is* an input is refused,
     and so is any of the ``planned`` file names that would land on an input (checked
     before anything is written, so no run stops half-way through its outputs);
-    :func:`write_atomic` guards each file again.
+    :func:`write_atomic` guards each file again. Inside :func:`output_session` the
+    folder's files are staged and moved into place as a set.
 
     Raises
     ------
     InputError
         ``out`` exists and is not a folder, or cannot be created.
     """
+    check_writable(out, inputs)
     out = Path(out)
+    where = _out_label(out)
     if out.resolve() in {Path(p).resolve() for p in inputs}:
-        raise InputError("is an input file; give a folder for the output files", f"--out {out}")
+        raise InputError("is an input file; give a folder for the output files", where)
     if out.exists() and not out.is_dir():
-        raise InputError("exists and is not a folder; give a folder for the output files", f"--out {out}")
+        raise InputError("exists and is not a folder; give a folder for the output files", where)
     ins = {Path(p).resolve() for p in inputs}
     for name in planned:
         if (out / name).resolve() in ins:
-            raise InputError(f"the output {name} would overwrite an input file; choose another --out folder",
-                             f"--out {out}")
+            raise InputError(f"the output {name} would overwrite an input file; choose another --out folder", where)
     try:
         out.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
-        raise InputError(f"cannot create the folder ({exc.strerror})", f"--out {out}") from None
+        raise InputError(f"cannot create the folder ({exc.strerror})", where) from None
+    if _SESSION is not None:
+        key = out.resolve()
+        if key not in _SESSION:
+            try:
+                _SESSION[key] = OutputSet(out)
+            except OSError as exc:
+                raise InputError(f"cannot write in the folder ({exc.strerror})", where) from None
     return out
+
+
+def _staged(path: Path) -> Path | None:
+    """The staging path of ``path`` when its folder is an output set of the running command."""
+    if _SESSION is None:
+        return None
+    st = _SESSION.get(path.parent.resolve())
+    return None if st is None else st.stage(path.name)
+
+
+def _usual_mode(p: Path) -> None:
+    # mkstemp makes the file private (0600); give it the usual mode for new files
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(p, 0o666 & ~umask)
 
 
 def _guard(path: Path, inputs: Iterable[Path]) -> None:
@@ -55,6 +293,9 @@ def _guard(path: Path, inputs: Iterable[Path]) -> None:
 def write_atomic(path: str | Path, writer: Callable[[Path], None], inputs: Iterable[str | Path] = ()) -> Path:
     """Write a file by calling ``writer(tmp_path)`` then renaming into place.
 
+    Inside :func:`output_session`, a file of a prepared output folder is written to the
+    folder's staging area and moved into place with the rest of its set.
+
     Parameters
     ----------
     path : path
@@ -63,18 +304,29 @@ def write_atomic(path: str | Path, writer: Callable[[Path], None], inputs: Itera
         Function that writes the whole file at the temporary path it is given.
     inputs : iterable of paths
         Input files of the run, never overwritten.
+
+    Returns
+    -------
+    Path
+        The final path of the file.
     """
     path = Path(path)
     _guard(path, [Path(p).resolve() for p in inputs])
+    staged = _staged(path)
+    if staged is not None:
+        try:
+            writer(staged)
+            _usual_mode(staged)
+        except BaseException:
+            staged.unlink(missing_ok=True)
+            raise
+        return path
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
     os.close(fd)
     tmp_path = Path(tmp)
     try:
         writer(tmp_path)
-        # mkstemp makes the file private (0600); give it the usual mode for new files
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp_path, 0o666 & ~umask)
+        _usual_mode(tmp_path)
         os.replace(tmp_path, path)
     except BaseException:
         tmp_path.unlink(missing_ok=True)
@@ -109,11 +361,34 @@ def rounded(frame):
     return out
 
 
+#: First characters that make a spreadsheet read a cell as a formula.
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+
+def neutralise_cell(value):
+    """A text cell that a spreadsheet would read as a formula, with a leading apostrophe
+    (``'=1+2``); anything else unchanged."""
+    if isinstance(value, str) and value.startswith(FORMULA_STARTS):
+        return "'" + value
+    return value
+
+
+def neutralise_frame(frame):
+    """A copy of ``frame`` with every text cell (and column name) neutralised (see :func:`neutralise_cell`)."""
+    out = frame.copy()
+    for col in out.columns:
+        if out[col].dtype == object or str(out[col].dtype) in ("string", "str"):
+            out[col] = out[col].map(neutralise_cell)
+    out.columns = [neutralise_cell(c) for c in out.columns]
+    return out
+
+
 def csv_text(frame, settings: Iterable[tuple[str, str]] = ()) -> str:
     """CSV text: ``# key: value`` lines recording how the file was made, then the
-    rounded table (the layout trackplan's own CSV reader accepts)."""
+    rounded table (the layout trackplan's own CSV reader accepts), formula-like text
+    cells neutralised (see the module docstring)."""
     head = "".join(f"# {k}: {' '.join(str(v).split())}\n" for k, v in settings if v not in (None, ""))
-    return head + rounded(frame).to_csv(index=False)
+    return head + rounded(neutralise_frame(frame)).to_csv(index=False)
 
 
 def write_csv(path: str | Path, frame, inputs: Iterable[str | Path] = (),
@@ -136,10 +411,13 @@ def save_figure(path: str | Path, fig, inputs: Iterable[str | Path] = (), dpi: i
 
 
 def matplotlib_backend() -> None:
-    """Select the non-interactive Agg backend (no screen on CI or servers)."""
+    """Select the non-interactive Agg backend (no screen on CI or servers), and read every text as
+    plain text: names and ids from users' files go into titles and legends, and a ``$`` in them must
+    not start matplotlib's math notation (an unbalanced one would stop the run)."""
     import matplotlib
 
     matplotlib.use("Agg")
+    matplotlib.rcParams["text.parse_math"] = False
 
 
 # --------------------------------------------------------------------------

@@ -549,19 +549,20 @@ class ScreenOptions:
         if self.season is not None and self.months is not None:
             raise InputError("give --season or --months, not both", "--season/--months")
         if self.start is not None and self.end is not None and self.start > self.end:
-            raise InputError(f"--from {self.start.isoformat()} is after --to {self.end.isoformat()}", "--from/--to")
+            raise InputError(f"the first day {self.start.isoformat()} is after the last day {self.end.isoformat()}",
+                             field="from/to")
         if self.months is not None and any(not 1 <= m <= 12 for m in self.months):
-            raise InputError(f"months {self.months} outside 1..12", "--months")
+            raise InputError(f"months {self.months} outside 1..12", field="months")
         if not math.isfinite(self.warming_K) or abs(self.warming_K) > WARMING_LIMIT_K:
             raise InputError(f"{self.warming_K:g} K is outside -{WARMING_LIMIT_K:g}..{WARMING_LIMIT_K:g} K "
-                             "(a uniform shift of the record)", "--warming")
+                             "(a uniform shift of the record)", field="warming")
         if self.neutral_override_C is not None:
             lo, hi = NEUTRAL_RANGE_C
             if not lo <= self.neutral_override_C <= hi:
                 raise InputError(f"{self.neutral_override_C:.1f} degC is outside {lo:g}..{hi:g} degC, the range "
-                                 "of neutral temperatures in practice", "--neutral-override")
+                                 "of neutral temperatures in practice", field="neutral_override")
         if not (0.0 < self.watch_fraction < 1.0):
-            raise InputError(f"{self.watch_fraction:g} is outside 0..1 (exclusive); e.g. 0.8", "--watch-fraction")
+            raise InputError(f"{self.watch_fraction:g} is outside 0..1 (exclusive); e.g. 0.8", field="watch_fraction")
         return self
 
 
@@ -976,15 +977,15 @@ class Screener:
         self.assessor.prepare_stability(sections)  # distinct tracks solved ahead, in parallel when many
         if disturbed:
             self.assessor.prepare_stability(disturbed, ballasts=("partial", "disturbed"))
-        from trackplan.assess import map_record_groups
+        from trackplan.assess import map_record_groups, section_problem
 
         def work(indices):
             part = {}
             for i in indices:
                 try:
                     part[i] = self.screen(sections[i])
-                except InputError as exc:
-                    part[i] = exc
+                except Exception as exc:  # a problem of this section; the others go on
+                    part[i] = section_problem(sections[i], exc)
             return part
 
         out = map_record_groups(work, sections, progress)

@@ -33,6 +33,8 @@ section; every value that is a quantity carries its unit::
     neutral_basis = "destressed"    # laid | destressed | measured | estimated | unknown
     youngs_modulus = "210 GPa"      # steel overrides (optional)
     alpha = "1.15e-5 1/K"
+    climate_units_confirmed = true  # the record's temperature unit is right even if it looks like
+                                    # another (default false: such a record is refused)
 
     loading = "freight-22.5t"       # train of the stability analysis (see `trackplan stability --help`), or "none"
 
@@ -49,8 +51,11 @@ section; every value that is a quantity carries its unit::
     kind = "destress"
     neutral_temperature = "32 degC"
 
-Every field is validated with a message naming the file, the section and the
-field, and what is accepted. :func:`load_sections` returns the good sections
+An optional ``[network]`` table describes the file (``name``, ``description``,
+``operator``). Every field is validated with a message naming the file, the section and the
+field, and what is accepted; quantities are checked against their plausible range
+(:mod:`trackplan.ranges`), and all the missing fields and bad quantities of a section are
+reported together. :func:`load_sections` returns the good sections
 and the list of problems, so that one bad section does not lose the others
 (the command line's ``--strict`` refuses the whole file instead).
 """
@@ -58,13 +63,14 @@ and the list of problems, so that one bad section does not lose the others
 from __future__ import annotations
 
 import datetime as dt
+import math
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from trackplan import rails, thermal, units
 from trackplan.track import OVERRIDES
-from trackplan.errors import InputError
+from trackplan.errors import InputError, excerpt
 
 SLEEPERS = ("timber", "concrete", "steel")
 BALLAST_STATES = ("consolidated", "partial", "disturbed")
@@ -107,10 +113,30 @@ _KNOWN_FIELDS = {
     "track_azimuth", "misalignment", "misalignment_length", "length", "shade",
     "neutral_temperature", "neutral_date", "neutral_basis", "drift_allowance", "gap_limit",
     "tension_stress_limit", "laying_tolerance", "return_period", "stability", "events",
-    "recovery_days", "rail_temperature_method", "loading", "columns", "tz",
+    "recovery_days", "rail_temperature_method", "loading", "columns", "tz", "climate_units_confirmed",
 }
 _DEFAULTABLE = _KNOWN_FIELDS - {"name", "location", "chainage", "stability", "events", "neutral_date",
                                 "neutral_temperature", "neutral_basis"}
+
+#: Most sections in one file, events in one section, characters in an id and in a name or location.
+MAX_SECTIONS = 20_000
+MAX_EVENTS = 1_000
+MAX_ID_CHARS = 80
+MAX_TEXT_CHARS = 200
+
+#: Rail temperature methods (``trackplan.railtemp.METHODS`` and ``auto``; kept in step by a test).
+RAIL_TEMPERATURE_METHODS = ("auto", "heat-balance", "daily-extremes", "air-plus-30F")
+#: Fields of the optional [network] table (descriptive only).
+NETWORK_FIELDS = ("name", "description", "operator")
+#: Fields a section must have (in the section or in [defaults]).
+REQUIRED_FIELDS = ("rail", "climate", "neutral_temperature")
+#: Kind of every quantity field, for the first pass that reports every bad field of a section at once.
+QUANTITY_FIELDS = {
+    "youngs_modulus": "stress", "alpha": "expansion", "radius": "length", "sleeper_spacing": "length",
+    "misalignment": "length", "misalignment_length": "length", "length": "length",
+    "track_azimuth": "angle", "neutral_temperature": "temperature", "drift_allowance": "temperature_difference",
+    "gap_limit": "length", "tension_stress_limit": "stress", "laying_tolerance": "temperature_difference",
+}
 
 #: Stability overrides accepted in [sections.ID.stability], with their kind (one table with the
 #: command line: :data:`trackplan.track.OVERRIDES`; short lengths are written with a unit here).
@@ -175,6 +201,7 @@ class Section:
     return_period_years: float
     recovery_days: int
     rail_temperature_method: str
+    climate_units_confirmed: bool = False
     stability_overrides: tuple = ()  # tuple of (name, SI value) pairs: hashable
     loading: str = "freight-22.5t"  # train preset of the stability analysis, or "none"
     events: tuple = ()  # tuple of Event, sorted by date
@@ -231,6 +258,8 @@ class _Fields:
         return None
 
     def w(self, key):
+        if key not in self.t and key in self.d:  # the value came from [defaults]: say so
+            return f"{self.where} {key} (from [defaults])"
         return f"{self.where} {key}"
 
     def quantity(self, key, kind, required=False):
@@ -249,13 +278,15 @@ class _Fields:
     def choice(self, key, options):
         v = self.raw(key)
         if not isinstance(v, str) or v not in options:
-            raise InputError(f"unknown value {v!r}; accepted: {', '.join(options)}", self.w(key))
+            raise InputError(f"unknown value {excerpt(v)}; accepted: {', '.join(options)}", self.w(key))
         return v
 
     def number(self, key, lo, hi, what):
         v = self.raw(key)
         if isinstance(v, bool) or not isinstance(v, (int, float)):
-            raise InputError(f"expected a number ({what}), got {v!r}", self.w(key))
+            raise InputError(f"expected a number ({what}), got {excerpt(v)}", self.w(key))
+        if not math.isfinite(v):
+            raise InputError(f"{v!r} is not a finite number ({what})", self.w(key))
         if not lo <= v <= hi:
             raise InputError(f"{v!r} is outside {lo}..{hi} ({what})", self.w(key))
         return float(v)
@@ -281,6 +312,8 @@ def _events(raw, where: str, today: dt.date, default_recovery: int) -> tuple:
         return ()
     if not isinstance(raw, list):
         raise InputError("expected a list of [[...events]] tables", where)
+    if len(raw) > MAX_EVENTS:
+        raise InputError(f"{len(raw)} events; at most {MAX_EVENTS} per section", where)
     out = []
     for i, ev in enumerate(raw):
         w = f"{where} events[{i}]"
@@ -330,15 +363,87 @@ def _check_neutral_range(t: float, where: str) -> None:
         raise InputError(f"{t:.1f} degC is outside -10..60 degC, the range of neutral temperatures in practice", where)
 
 
+def _all_field_problems(f: "_Fields") -> None:
+    """First pass over a section: every missing field, every unreadable or implausible quantity and
+    every unknown choice, all reported in one message (the detailed checks that follow stop at the
+    first)."""
+    problems: list[tuple[str, InputError]] = []
+    missing = [k for k in REQUIRED_FIELDS if f.raw(k) is None]
+    if missing:
+        text = f"missing field(s) {', '.join(repr(k) for k in missing)}"
+        problems.append((text, InputError(text, f.where)))
+    checks = [(key, lambda k=key, kind=kind: f.quantity(k, kind)) for key, kind in QUANTITY_FIELDS.items()]
+    checks += [(key, lambda k=key, o=options: f.choice(k, o))
+               for key, options in (("sleeper", SLEEPERS), ("ballast", BALLAST_STATES), ("shoulder", SHOULDERS))]
+    for key, check in checks:
+        if key in missing:
+            continue
+        try:
+            check()
+        except InputError as exc:
+            problems.append((f"{key}: {exc.bare_message}", exc))
+    if len(problems) == 1:
+        raise problems[0][1]
+    if len(problems) > 1:
+        raise InputError(f"{len(problems)} problems: " + "; ".join(t for t, _ in problems), f.where)
+
+
+def _climate_path(file: Path, clim: str, where: str) -> Path:
+    """The climate record's path, resolved against the section file's folder, checked to be a
+    regular file (no folder, pipe, device or link loop; see :mod:`trackplan.safeio`)."""
+    import os
+    import stat
+
+    from trackplan import safeio
+
+    p = safeio.safe_resolve(file.parent / safeio.check_path(clim, where), where)
+    try:
+        mode = os.stat(p).st_mode
+    except FileNotFoundError:
+        raise InputError(f"climate record not found: {excerpt(str(p), 120)}", where) from None
+    except OSError as exc:
+        raise InputError(f"climate record {excerpt(str(p), 120)}: {safeio._os_message(exc)}", where) from None
+    if stat.S_ISDIR(mode):
+        raise InputError(f"{excerpt(str(p), 120)} is a folder; give the climate record file", where)
+    if not stat.S_ISREG(mode):
+        raise InputError(f"{excerpt(str(p), 120)} is not a regular file (a pipe or a device?); give the climate "
+                         "record file", where)
+    return p
+
+
+def _text_field(v, limit: int, where: str) -> str:
+    """A descriptive text (name, location): a string of printable characters, not too long."""
+    if not isinstance(v, str):
+        raise InputError(f"expected text in quotes, got {excerpt(v)}", where)
+    if len(v) > limit:
+        raise InputError(f"{len(v)} characters; at most {limit}", where)
+    if not v.isprintable():
+        raise InputError("holds control characters (line breaks, escapes); write plain text", where)
+    return v
+
+
+def _check_id(sid: str, file: Path) -> None:
+    where = f"{file.name} [sections.{sid[:40]}{'...' if len(sid) > 40 else ''}]"
+    if len(sid) > MAX_ID_CHARS:
+        raise InputError(f"the section id has {len(sid)} characters; at most {MAX_ID_CHARS}", where)
+    if not sid.strip() or not sid.isprintable() or "[" in sid or "]" in sid:
+        raise InputError("a section id is printable text without square brackets, e.g. NV-101", where)
+
+
 def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
              user_profiles: dict | None) -> Section:
+    _check_id(sid, file)
     where = f"{file.name} [sections.{sid}]"
     if not isinstance(table, dict):
         raise InputError("expected a table of fields", where)
+    for key in ("name", "location", "chainage"):
+        if key in table:
+            _text_field(table[key], MAX_TEXT_CHARS, f"{where} {key}")
     unknown = set(table) - _KNOWN_FIELDS
     if unknown:
         raise InputError(f"unknown field(s) {sorted(unknown)}; accepted: {', '.join(sorted(_KNOWN_FIELDS))}", where)
     f = _Fields(table, defaults, where)
+    _all_field_problems(f)
 
     profile = rails.get_profile(str(f.raw("rail", required=True)), user_profiles, where=f.w("rail"))
     steel_name = f.raw("steel")
@@ -361,11 +466,7 @@ def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
     clim = f.raw("climate", required=True)
     if not isinstance(clim, str):
         raise InputError("expected a path to a climate record (relative to the section file)", f.w("climate"))
-    climate_path = (file.parent / clim).resolve()
-    if climate_path.is_dir():
-        raise InputError(f"{climate_path} is a folder; give the climate record file", f.w("climate"))
-    if not climate_path.is_file():
-        raise InputError(f"climate record not found: {climate_path}", f.w("climate"))
+    climate_path = _climate_path(file, clim, f.w("climate"))
 
     radius = f.quantity("radius", "length")
     if radius is not None and radius <= 0:
@@ -422,6 +523,12 @@ def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
     if not isinstance(train, str) or train not in loading_mod.loading_names():
         raise InputError(f"unknown loading {train!r}; accepted: {', '.join(loading_mod.loading_names())}",
                          f.w("loading"))
+    if method not in RAIL_TEMPERATURE_METHODS:
+        raise InputError(f"unknown rail temperature method {excerpt(method)}; accepted: "
+                         f"{', '.join(RAIL_TEMPERATURE_METHODS)}", f.w("rail_temperature_method"))
+    confirmed = f.raw("climate_units_confirmed")
+    if confirmed is not None and not isinstance(confirmed, bool):
+        raise InputError(f"expected true or false, got {excerpt(confirmed)}", f.w("climate_units_confirmed"))
 
     stab = table.get("stability", defaults.get("stability", {}))
     if not isinstance(stab, dict):
@@ -481,6 +588,7 @@ def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
         recovery_days=int(rec),
         rail_temperature_method=str(method),
         loading=train,
+        climate_units_confirmed=bool(confirmed),
         stability_overrides=tuple(sorted(overrides)),
         events=events,
         climate_columns=_climate_columns(f),
@@ -514,7 +622,8 @@ def load_sections(path: str | Path, today: dt.date | None = None, strict: bool =
     today : datetime.date, optional
         Dates after it are refused (default: today).
     strict : bool
-        Raise the first problem instead of collecting problems per section.
+        Raise if any section has a problem (one error naming every problem) instead of
+        returning the good sections and the problems.
     user_profiles : dict, optional
         Extra rail profiles (:func:`trackplan.rails.load_user_profiles`).
 
@@ -530,14 +639,14 @@ def load_sections(path: str | Path, today: dt.date | None = None, strict: bool =
     """
     path = Path(path)
     today = today or dt.date.today()
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("section file not found", str(path)) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read the file ({exc})", str(path)) from None
+    from trackplan import safeio
+
+    safeio.check_path(path, "section file")
+    text = safeio.read_text(path, str(path))
     try:
         data = tomllib.loads(text)
+    except RecursionError:
+        raise InputError("not valid TOML for trackplan (values nested too deeply)", str(path)) from None
     except tomllib.TOMLDecodeError as exc:
         msg = str(exc)
         if "twice" in msg or "overwrite" in msg.lower():
@@ -547,6 +656,13 @@ def load_sections(path: str | Path, today: dt.date | None = None, strict: bool =
     if unknown_top:
         raise InputError(f"unknown top-level table(s) {sorted(unknown_top)}; accepted: [defaults], [network], "
                          "[sections.ID]", str(path))
+    network = data.get("network", {})
+    if not isinstance(network, dict):
+        raise InputError("[network] must be a table", str(path))
+    bad_network = set(network) - set(NETWORK_FIELDS)
+    if bad_network:
+        raise InputError(f"unknown field(s) {sorted(excerpt(k) for k in bad_network)} in [network]; accepted: "
+                         f"{', '.join(NETWORK_FIELDS)}", f"{path.name} [network]")
     defaults = data.get("defaults", {})
     if not isinstance(defaults, dict):
         raise InputError("[defaults] must be a table", str(path))
@@ -557,6 +673,8 @@ def load_sections(path: str | Path, today: dt.date | None = None, strict: bool =
     tables = data.get("sections")
     if not isinstance(tables, dict) or not tables:
         raise InputError("no sections found; add one table per welded section, e.g. [sections.NV-101]", str(path))
+    if len(tables) > MAX_SECTIONS:
+        raise InputError(f"{len(tables)} sections; at most {MAX_SECTIONS} in one file (split the network)", str(path))
     # Duplicate ids cannot reach us through tomllib (it refuses redefined tables), but ids that
     # differ only in case would confuse every report, so they are refused.
     seen: dict[str, str] = {}
@@ -570,7 +688,14 @@ def load_sections(path: str | Path, today: dt.date | None = None, strict: bool =
         try:
             out.sections.append(_section(sid, table, defaults, path.resolve(), today, user_profiles))
         except InputError as exc:
-            if strict:
-                raise
             out.problems.append(exc)
+        except Exception as exc:  # never lose the other sections to one that trips an unforeseen case
+            out.problems.append(InputError(
+                f"could not be read: internal error {type(exc).__name__}: {excerpt(exc, 120)} (a fault in "
+                "trackplan; please report it with the section file)", f"{path.name} [sections.{sid[:40]}]"))
+    if strict and out.problems:
+        if len(out.problems) == 1:
+            raise out.problems[0]
+        raise InputError(f"{len(out.problems)} sections have problems (--strict refuses the file): "
+                         + " | ".join(str(p) for p in out.problems), str(path))
     return out

@@ -516,7 +516,7 @@ def _solve_traced(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERIO
     """
     check_input(inp)
     if criterion not in CRITERIA:
-        raise InputError(f"unknown criterion {criterion!r}; accepted: {', '.join(CRITERIA)}", "--criterion")
+        raise InputError(f"unknown criterion {criterion!r}; accepted: {', '.join(CRITERIA)}", field="criterion")
     notes = []
     perfect = inp.misalignment_m == 0.0
     d0 = TRIGGER_MISALIGNMENT_M if perfect else inp.misalignment_m

@@ -56,7 +56,7 @@ SI_UNIT = {
 #: pint dimensionality expected for each kind (checked on the pint path).
 _PINT_CHECK_UNIT = {k: v for k, v in SI_UNIT.items()}
 _PINT_CHECK_UNIT["temperature"] = "K"
-_PINT_CHECK_UNIT["angle"] = "radian"
+_PINT_CHECK_UNIT["angle"] = "degree"  # SI inside for angles is the degree (converted, never just checked)
 
 # factor, offset: si_value = value * factor + offset
 _F = 4.4482216152605  # N per lbf (exact by definition of the pound-force)
@@ -155,7 +155,9 @@ _UNITS: dict[str, dict[str, tuple[float, float]]] = {
         "mph": (1609.344 / 3600.0, 0.0),
         "knot": (1852.0 / 3600.0, 0.0),
     },
-    "angle": {"deg": (1.0, 0.0), "degree": (1.0, 0.0), "°": (1.0, 0.0)},
+    "angle": {"deg": (1.0, 0.0), "degree": (1.0, 0.0), "degrees": (1.0, 0.0), "°": (1.0, 0.0),
+              "rad": (180.0 / math.pi, 0.0), "radian": (180.0 / math.pi, 0.0), "grad": (0.9, 0.0),
+              "gon": (0.9, 0.0), "turn": (360.0, 0.0)},
     "time": {"s": (1.0, 0.0), "min": (60.0, 0.0), "h": (3600.0, 0.0), "day": (86400.0, 0.0)},
 }
 
@@ -292,6 +294,23 @@ def _via_pint(value: float, unit: str, kind: str, where: str | None) -> float:
     import pint
 
     ureg = registry()
+    if kind in ("temperature", "temperature_difference"):
+        try:
+            offset = not ureg.Unit(unit).is_compatible_with("kelvin") or not ureg.Quantity(1, unit)._is_multiplicative
+        except Exception:
+            offset = None
+        if kind == "temperature_difference" and offset:
+            raise InputError(
+                f"'{value:g} {unit}' is a point on a temperature scale (an absolute temperature), but a "
+                f"temperature difference is needed here; write it as K, delta_degC or delta_degF (e.g. '{value:g} K')",
+                where,
+            )
+        if kind == "temperature" and offset is False and "delta" in unit.lower():
+            raise InputError(
+                f"'{value:g} {unit}' is a temperature difference, but an absolute temperature "
+                "is needed here; write degC or degF (e.g. '27 degC')",
+                where,
+            )
     try:
         q = ureg.Quantity(value, unit)
         si = q.to(_PINT_CHECK_UNIT[kind])
@@ -378,6 +397,7 @@ def parse(
     kind: str,
     where: str | None = None,
     default_unit: str | None = None,
+    field: str | None = None,
 ) -> float:
     """Parse a quantity a person wrote and return its SI value.
 
@@ -403,9 +423,10 @@ def parse(
     Raises
     ------
     InputError
-        Unparseable text, a missing unit, a unit of another dimension.
+        Unparseable text, a missing unit, a unit of another dimension, a value
+        outside the plausible range of its field (:mod:`trackplan.ranges`).
     """
-    return parse_with_unit(text, kind, where, default_unit).value
+    return parse_with_unit(text, kind, where, default_unit, field).value
 
 
 def parse_with_unit(
@@ -413,8 +434,15 @@ def parse_with_unit(
     kind: str,
     where: str | None = None,
     default_unit: str | None = None,
+    field: str | None = None,
+    check_range: bool = True,
 ) -> Parsed:
-    """Like :func:`parse` but also return the unit as written (for echoing)."""
+    """Like :func:`parse` but also return the unit as written (for echoing).
+
+    The value is checked against the plausible range of its field
+    (:func:`trackplan.ranges.check`: ``field``, or the field ``where`` names, or the
+    broad range of the kind), unless ``check_range`` is false.
+    """
     kind = _KIND_ALIAS.get(kind, kind)
     _check_kind(kind)
     if isinstance(text, bool):
@@ -422,24 +450,38 @@ def parse_with_unit(
     if isinstance(text, (int, float)):
         number, unit = float(text), ""
     else:
-        m = _NUMBER_RE.match(str(text))
+        m = _NUMBER_RE.match(str(text)) if len(str(text)) <= 200 else None
+        if not str(text).strip():
+            raise InputError(f"the value is empty; write a number and a unit, e.g. '{_example(kind)}'", where)
         if not m:
             raise InputError(
-                f"cannot read {str(text)!r} as a {kind.replace('_', ' ')}; write a number and a unit, "
+                f"cannot read {_short(str(text))} as {'an' if kind[0] in 'aeiou' else 'a'} {kind.replace('_', ' ')}; "
+                "write a number and a unit, "
                 f"e.g. '{_example(kind)}'",
                 where,
             )
         number, unit = float(m.group(1)), m.group(2)
     if not math.isfinite(number):
-        raise InputError(f"{text!r} is not a finite number", where)
+        raise InputError(f"{_short(text)} is not a finite number", where)
     if not unit:
         if default_unit is None:
             raise InputError(
-                f"{text!r} has no unit; write it with one of: " + ", ".join(accepted_units(kind)),
+                f"{_short(text)} has no unit; write it with one of: " + ", ".join(accepted_units(kind)),
                 where,
             )
         unit = default_unit
-    return Parsed(to_si(number, unit, kind, where), unit, number)
+    value = to_si(number, unit, kind, where)
+    if check_range:
+        from trackplan import ranges
+
+        ranges.check(value, kind, where, field=field, number=number, unit=unit)
+    return Parsed(value, unit, number)
+
+
+def _short(text) -> str:
+    from trackplan.errors import excerpt
+
+    return excerpt(text) if isinstance(text, str) else repr(text)
 
 
 def _example(kind: str) -> str:

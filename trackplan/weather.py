@@ -123,8 +123,10 @@ Our own CSV (``trackplan-csv``)
   (with a unit: ``480 m``, ``1575 ft``), ``timezone`` (``UTC``, a fixed offset
   ``UTC-06:00`` / ``-06:00`` / ``+05:30``, or an IANA name such as
   ``America/Chicago``), ``wind_height`` (with a unit, default 10 m),
-  ``irradiance_timing`` (``instant``, ``hour-ending``, ``hour-beginning``).
-  Other keys are kept in ``meta["extra"]``.
+  ``irradiance_timing`` (``instant``, ``hour-ending``, ``hour-beginning``),
+  ``units confirmed`` (``yes``: the temperature unit in the header is right even
+  where the values look like another unit, see
+  :func:`trackplan.record_checks.unit_slip`). Other keys are kept in ``meta["extra"]``.
 * The header: a timestamp column (``time``, ``date``, ``datetime``... or
   mapped); the time step comes from the timestamps (daily when every
   timestamp is at midnight a day or more apart), never from the column's
@@ -196,7 +198,6 @@ References
 from __future__ import annotations
 
 import datetime as _dt
-import gzip
 import io
 import re
 from dataclasses import dataclass, field
@@ -205,8 +206,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from trackplan import columns, notices, units
-from trackplan.errors import InputError
+from trackplan import columns, notices, record_checks, units
+from trackplan.errors import InputError, excerpt
 
 #: Year that typical-year files (TMY3, EPW) are re-labelled to (not a leap year).
 TYPICAL_YEAR = 1990
@@ -316,6 +317,7 @@ class _Ctx:
     tz: str | None = None  # zone for naive timestamps, from the command line or section file
     site_lon: float | None = None  # the site's longitude [deg], for the zone when nothing else says
     site_lat: float | None = None  # the site's latitude [deg], for the nearest cell of a gridded file
+    units_confirmed: bool = False
 
     def at(self, line: int | None = None, column: str | None = None) -> str:
         s = self.label
@@ -331,23 +333,10 @@ class _Ctx:
 
 
 def _read_text(path: Path, ctx: _Ctx) -> str:
-    try:
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise InputError("file not found; give the path of a weather record", ctx.label) from None
-    except IsADirectoryError:
-        raise InputError("is a folder, not a weather record file", ctx.label) from None
-    except OSError as exc:
-        raise InputError(f"cannot read the file ({exc.strerror})", ctx.label) from None
-    if raw[:2] == b"\x1f\x8b":
-        try:
-            raw = gzip.decompress(raw)
-        except (OSError, EOFError) as exc:
-            raise InputError(f"damaged gzip file ({exc})", ctx.label) from None
-    try:
-        return raw.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        return raw.decode("latin-1")
+    from trackplan import safeio
+
+    raw = safeio.read_bytes(path, ctx.label, safeio.MAX_RECORD_BYTES, safeio.MAX_DECOMPRESSED_BYTES)
+    return safeio.decode_text(raw, ctx.label, fallback="latin-1")
 
 
 def _first_lines(text: str, n: int) -> list[str]:
@@ -415,7 +404,7 @@ def sample_records() -> dict[str, Path]:
 
 
 def read_record(path, *, where: str | None = None, columns: dict | None = None, tz: str | None = None,
-                site: tuple | None = None) -> tuple[pd.DataFrame, dict]:
+                site: tuple | None = None, units_confirmed: bool = False) -> tuple[pd.DataFrame, dict]:
     """Read a weather record into canonical columns (SI) and metadata.
 
     Parameters
@@ -433,6 +422,11 @@ def read_record(path, *, where: str | None = None, columns: dict | None = None, 
         The site's latitude and longitude [deg]: the longitude gives the zone
         of naive timestamps when nothing else does; a gridded file is read at
         the cell nearest the site.
+    units_confirmed : bool
+        The temperature unit written in the file is confirmed by the caller (a section's
+        ``climate_units_confirmed``): a record that looks like another unit is then read
+        with a warning instead of refused (a file confirms it itself with a line
+        ``# units confirmed: yes``).
 
     Returns
     -------
@@ -454,11 +448,16 @@ def read_record(path, *, where: str | None = None, columns: dict | None = None, 
     """
     p = Path(path)
     lat, lon = site if site is not None else (None, None)
-    ctx = _Ctx(label=where or str(path), path=str(p), columns=columns, tz=tz, site_lon=lon, site_lat=lat)
-    from trackplan import quality, readers_cf, readers_fixed
+    ctx = _Ctx(label=where or str(path), path=str(p), columns=columns, tz=tz, site_lon=lon, site_lat=lat,
+               units_confirmed=units_confirmed)
+    from trackplan import quality, readers_cf, readers_fixed, safeio
 
+    # before any reader opens it (a FIFO would block, a device never end)
+    safeio.check_regular(p, ctx.label, safeio.MAX_RECORD_BYTES)
     if readers_cf.is_netcdf(p):
-        return quality.finish_record(*readers_cf.read_cf(p, ctx), ctx)
+        data, meta = readers_cf.read_cf(p, ctx)
+        meta["file_stamp"] = _file_stamp(p)
+        return quality.finish_record(data, meta, ctx)
     text = _read_text(p, ctx)
     if not text.strip():
         raise InputError(
@@ -473,7 +472,17 @@ def read_record(path, *, where: str | None = None, columns: dict | None = None, 
     data, meta = {**_readers(), **readers_fixed.READERS}[fmt](text, ctx)
     meta["source_format"] = fmt
     meta["path"] = str(p)
+    meta["file_stamp"] = _file_stamp(p)
     return quality.finish_record(data, meta, ctx)
+
+
+def _file_stamp(p: Path) -> tuple:
+    """Size and modification time [ns] of the file read, for caches keyed on a record's path."""
+    try:
+        st = p.stat()
+    except OSError:  # pragma: no cover - the file was read a moment ago
+        return ()
+    return (st.st_size, st.st_mtime_ns, st.st_ino)
 
 
 def _base_meta() -> dict:
@@ -530,7 +539,7 @@ def _parse_timezone(text: str, where: str, year: int = 2001) -> tuple[str, float
         hours = int(m.group(2)) + int(m.group(3) or 0) / 60.0
         off = sign * hours
         if abs(off) > 14:
-            raise InputError(f"time zone offset {t!r} is outside -12..+14 h", where)
+            raise InputError(f"time zone offset {excerpt(t)} is outside -12..+14 h", where)
         return _offset_text(off), off
     try:
         from zoneinfo import ZoneInfo
@@ -538,7 +547,7 @@ def _parse_timezone(text: str, where: str, year: int = 2001) -> tuple[str, float
         zi = ZoneInfo(t)
     except Exception:
         raise InputError(
-            f"unknown time zone {t!r}; write UTC, a fixed offset such as 'UTC-06:00' or '+05:30', "
+            f"unknown time zone {excerpt(t)}; write UTC, a fixed offset such as 'UTC-06:00' or '+05:30', "
             "or an IANA name such as 'America/Chicago'",
             where,
         ) from None
@@ -566,11 +575,16 @@ def _parse_meta_lines(lines: list[tuple[int, str, str]], meta: dict, ctx: _Ctx) 
             meta["_tz_text"] = (value, where)
         elif k in ("wind_height", "anemometer_height"):
             meta["wind_height_m"] = units.parse(value, "length", where)
+        elif k in ("units_confirmed", "unit_confirmed", "units_checked"):
+            v = value.strip().lower()
+            if v not in ("yes", "true", "no", "false"):
+                raise InputError(f"'{key}' must be yes or no", where)
+            meta["units_confirmed"] = v in ("yes", "true")
         elif k == "irradiance_timing":
             v = value.strip().lower()
             if v not in ("instant", "hour-ending", "hour-beginning"):
                 raise InputError(
-                    f"irradiance_timing {value!r}; accepted: instant, hour-ending, hour-beginning", where
+                    f"irradiance_timing {excerpt(value)}; accepted: instant, hour-ending, hour-beginning", where
                 )
             meta["irradiance_timing"] = v
         else:
@@ -582,7 +596,7 @@ def _parse_coordinate(value: str, name: str, limit: float, where: str) -> float:
     m = re.match(r"^([-+]?(?:\d+\.?\d*|\.\d+))\s*(deg|degree|degrees|°)?$", v, re.IGNORECASE)
     if not m:
         raise InputError(
-            f"cannot read {name} {value!r}; write decimal degrees, "
+            f"cannot read {name} {excerpt(value)}; write decimal degrees, "
             f"{'north' if name == 'latitude' else 'east'} positive, e.g. "
             f"'{'41.2' if name == 'latitude' else '-97.4'}'",
             where,
@@ -648,12 +662,15 @@ def _read_trackplan_csv(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
     )
     try:
         raw = pd.read_csv(io.StringIO(text), dtype=dtypes, **read_kw)
+    except pd.errors.ParserError as exc:  # a ValueError too: caught first
+        raise InputError(f"malformed CSV ({_parser_message(exc)})", ctx.label) from None
     except ValueError:
-        raw = pd.read_csv(io.StringIO(text), dtype=str, **read_kw)
+        try:
+            raw = pd.read_csv(io.StringIO(text), dtype=str, **read_kw)
+        except (pd.errors.ParserError, ValueError) as exc:
+            raise InputError(f"malformed CSV ({_parser_message(exc)})", ctx.label) from None
         _raise_bad_number(raw, list(used), names, header_line, ctx)
         raise  # pragma: no cover - the line above always raises
-    except pd.errors.ParserError as exc:
-        raise InputError(f"malformed CSV ({exc})", ctx.label) from None
     # drop blank lines (all empty), remember file line of each row
     lines = np.arange(len(raw)) + header_line + 1
     blank = raw[tname].isna().to_numpy() & raw[list(used)].isna().all(axis=1).to_numpy()
@@ -666,7 +683,7 @@ def _read_trackplan_csv(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
     bad_t = tcol.isna().to_numpy()
     if bad_t.any():
         i = int(np.argmax(bad_t))
-        raise InputError(f"empty {tname!r} cell; every row needs a timestamp", ctx.at(int(lines[i]), "1"))
+        raise InputError(f"empty {excerpt(tname)} cell; every row needs a timestamp", ctx.at(int(lines[i]), "1"))
 
     tz_text, tz_where = meta.pop("_tz_text", (None, None))
     tcol, step_kind = columns.step_of(tcol, lines, ctx)
@@ -693,6 +710,16 @@ def _read_trackplan_csv(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
     _check_values(data, meta, lines, used, ctx)
     data = _finish(data, meta, ctx, step_kind)
     return data, meta
+
+
+def _parser_message(exc: Exception) -> str:
+    """The CSV parser's own words (they name a line and a field count, not the file's content),
+    shortened; a stray quote typically shows as a field running to the end of the file."""
+    text = " ".join(str(exc).split())
+    text = text[:160] + ("..." if len(text) > 160 else "")
+    if "EOF inside string" in text or "quote" in text.lower():
+        text += "; a stray quote character? quote marks must come in pairs"
+    return "".join(c if c.isprintable() else "?" for c in text)
 
 
 def _unit_factor(unit: str, q: _Quantity, where: str) -> tuple[float, float]:
@@ -726,8 +753,8 @@ def _raise_bad_number(raw: pd.DataFrame, cols: list[str], names: list[str], head
     i, h, val = best
     k = names.index(h) + 1
     raise InputError(
-        f"{val!r} is not a number (column {h!r} holds numbers; leave a missing value empty)",
-        ctx.at(header_line + 1 + i, f"{k} {h!r}"),
+        f"{excerpt(val)} is not a number (column {excerpt(h)} holds numbers; leave a missing value empty)",
+        ctx.at(header_line + 1 + i, f"{k} {excerpt(h)}"),
     )
 
 
@@ -735,7 +762,7 @@ def _bad_time_row(parsed: pd.Series | pd.DatetimeIndex, tcol: pd.Series, lines, 
     bad = np.asarray(pd.isna(parsed)) & tcol.notna().to_numpy()
     i = int(np.argmax(bad))
     raise InputError(
-        f"cannot read {tcol.iloc[i]!r} as {what}", ctx.at(int(lines[i]), "1")
+        f"cannot read {excerpt(tcol.iloc[i])} as {what}", ctx.at(int(lines[i]), "1")
     )
 
 
@@ -805,7 +832,7 @@ def _parse_dates(tcol: pd.Series, lines, ctx: _Ctx) -> pd.DatetimeIndex:
     if notmid.any():
         i = int(np.argmax(notmid))
         raise InputError(
-            f"{tcol.iloc[i]!r} has a time of day; a daily record has dates only (YYYY-MM-DD)",
+            f"{excerpt(tcol.iloc[i])} has a time of day; a daily record has dates only (YYYY-MM-DD)",
             ctx.at(int(lines[i]), "1"),
         )
     idx.name = "date"
@@ -859,7 +886,7 @@ def _check_values(data: pd.DataFrame, meta: dict, lines, used: dict, ctx: _Ctx) 
         valid = ~np.isnan(x)
         n = int(valid.sum())
         if n == 0:
-            ctx.warn(f"column {h!r} holds no values")
+            ctx.warn(f"column {excerpt(h)} holds no values")
             continue
         out = valid & ((x < q.lo - 1e-9) | (x > q.hi + 1e-9))
         n_out = int(out.sum())
@@ -872,7 +899,7 @@ def _check_values(data: pd.DataFrame, meta: dict, lines, used: dict, ctx: _Ctx) 
             )
         if n_out:
             ctx.warn(
-                f"{n_out} impossible value(s) in column {h!r} (outside {q.lo:g}..{q.hi:g} {_si_label(q)}; "
+                f"{n_out} impossible value(s) in column {excerpt(h)} (outside {q.lo:g}..{q.hi:g} {_si_label(q)}; "
                 f"{_lines_text(lines, out, raw)}); treated as missing"
                 + (f"; {hint}" if hint else ""),
             )
@@ -880,7 +907,7 @@ def _check_values(data: pd.DataFrame, meta: dict, lines, used: dict, ctx: _Ctx) 
             x[out] = np.nan
             data[col] = x
         elif hint:
-            ctx.warn(f"column {h!r}: {hint}")
+            ctx.warn(f"column {excerpt(h)}: {hint}")
     if "tmax_C" in data and "tmin_C" in data:
         tx, tn = data["tmax_C"].to_numpy(), data["tmin_C"].to_numpy()
         both = ~np.isnan(tx) & ~np.isnan(tn)
@@ -894,11 +921,13 @@ def _check_values(data: pd.DataFrame, meta: dict, lines, used: dict, ctx: _Ctx) 
             ctx.warn(
                 f"tmin above tmax on {ninv} day(s) ({_lines_text(lines, inv, tn)}); kept as written"
             )
+    confirmed = bool(meta.get("units_confirmed")) or ctx.units_confirmed
     if "air_temperature_C" in data and meta.get("units_in_file", {}).get("air_temperature_C"):
-        _soft_temperature_check(data["air_temperature_C"], meta["units_in_file"]["air_temperature_C"],
-                                lat, "air_temperature", ctx)
-    if "tmax_C" in data:
-        _soft_temperature_check(data["tmax_C"], meta["units_in_file"].get("tmax_C", ""), lat, "tmax", ctx)
+        record_checks.unit_slip(data["air_temperature_C"], None, meta["units_in_file"]["air_temperature_C"], lat,
+                                "air_temperature", confirmed, ctx)
+    if "tmax_C" in data and "tmin_C" in data:
+        record_checks.unit_slip(data["tmax_C"], data["tmin_C"], meta["units_in_file"].get("tmax_C", ""), lat, "tmax",
+                                confirmed, ctx)
 
 
 def _unit_hint(q: _Quantity, unit: str, raw: np.ndarray, x: np.ndarray) -> str:
@@ -935,29 +964,6 @@ def _unit_hint(q: _Quantity, unit: str, raw: np.ndarray, x: np.ndarray) -> str:
             return f"the largest value is {mx:g} %; these look like a 0-1 fraction; write the unit as [1]"
         return ""
     return ""
-
-
-def _soft_temperature_check(s: pd.Series, unit: str, lat, name: str, ctx: _Ctx) -> None:
-    u = unit.strip().lower()
-    v = s.dropna()
-    if len(v) == 0:
-        return
-    span_days = (v.index[-1] - v.index[0]) / pd.Timedelta(days=1)
-    if span_days < 300:
-        return
-    mx = float(v.max())
-    if u in ("degc", "°c", "celsius", "deg c") and mx > 50.0:
-        ann = v.groupby(v.index.year).max()
-        if float(ann.median()) > 50.0:
-            ctx.warn(
-                f"column {name}: the typical annual maximum is {float(ann.median()):.1f} degC, hotter than "
-                "any weather station records; the values may be degF (write [degF])"
-            )
-    if u in ("degf", "°f", "fahrenheit", "deg f") and mx < 10.0 and (lat is None or abs(lat) < 60.0):
-        ctx.warn(
-            f"column {name}: the warmest value in a year or more is {mx:.1f} degC ({mx * 9 / 5 + 32:.1f} degF) "
-            "away from the polar regions; the values may be degC (write [degC])"
-        )
 
 
 # --------------------------------------------------------------------------
@@ -1045,6 +1051,7 @@ def _finish(data: pd.DataFrame, meta: dict, ctx: _Ctx, step_kind: str) -> pd.Dat
                  "rail temperature is resolved poorly")
     meta["time_step"] = step_kind
     meta["time_step_s"] = step_s
+    record_checks.check_span(data.index, step, ctx)
     before = data.index
     data = _regularise(data, step, ctx)
     added = len(data) - len(before)
@@ -1147,7 +1154,7 @@ _TMY3_MAP = {
 
 
 def _typical_common(raw: pd.DataFrame, colmap: dict, cloud: pd.Series | None, meta: dict,
-                    ctx: _Ctx, missing_markers: dict) -> pd.DataFrame:
+                    ctx: _Ctx, missing_markers: dict, header_lines: int = 0) -> pd.DataFrame:
     data = pd.DataFrame(index=raw.index)
     for src, col in colmap.items():
         if src in raw:
@@ -1166,6 +1173,10 @@ def _typical_common(raw: pd.DataFrame, colmap: dict, cloud: pd.Series | None, me
     off = float(meta["utc_offset_h"])
     data.index = pd.DatetimeIndex(raw.index).tz_convert(_fixed_tz(off))
     data.index.name = "time"
+    if len(data) == 0:
+        raise InputError("the header but no data rows; a typical-year file has 8760 hourly rows", ctx.label)
+    # rows in file order: a duplicated or swapped row is refused, naming its line
+    _check_order(data.index, np.arange(len(data)) + header_lines + 1, ctx)
     return data
 
 
@@ -1209,7 +1220,7 @@ def _read_tmy3(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
     meta["units_in_file"] = {"air_temperature_C": "degC", "ghi_W_m2": "W/m**2", "dni_W_m2": "W/m**2",
                              "dhi_W_m2": "W/m**2", "wind_speed_m_s": "m/s", "relative_humidity_pct": "%"}
     data = _typical_common(raw, _TMY3_MAP, raw.get("TotCld (tenths)"), meta, ctx,
-                           {k: -9000.0 for k in _TMY3_MAP})
+                           {k: -9000.0 for k in _TMY3_MAP}, header_lines=2)
     data = _finish(data, meta, ctx, "hourly")
     return data, meta
 
@@ -1240,7 +1251,7 @@ def _read_epw(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
     # pvlib labels EPW hour h with h-1 (start of the hour); move to the end of the hour.
     raw = raw.copy()
     raw.index = raw.index + pd.Timedelta(hours=1)
-    data = _typical_common(raw, _TMY3_MAP, raw.get("total_sky_cover"), meta, ctx, _EPW_MISSING)
+    data = _typical_common(raw, _TMY3_MAP, raw.get("total_sky_cover"), meta, ctx, _EPW_MISSING, header_lines=8)
     data = _finish(data, meta, ctx, "hourly")
     return data, meta
 
@@ -1284,16 +1295,19 @@ def _read_ghcn_daily(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
               na_values={"value": ["", "-9999"]}, skip_blank_lines=False, index_col=False)
     try:
         raw = pd.read_csv(io.StringIO(text), dtype=dtypes, **kw)
+    except pd.errors.ParserError as exc:  # a ValueError too: caught first
+        raise InputError(f"malformed GHCN-Daily CSV ({_parser_message(exc)})", ctx.label) from None
     except ValueError:
-        raw = pd.read_csv(io.StringIO(text), dtype=str, **kw)
+        try:
+            raw = pd.read_csv(io.StringIO(text), dtype=str, **kw)
+        except (pd.errors.ParserError, ValueError) as exc:
+            raise InputError(f"malformed GHCN-Daily CSV ({_parser_message(exc)})", ctx.label) from None
         v = raw["value"]
         num = pd.to_numeric(v, errors="coerce")
         bad = (v.notna() & (v != "") & (v != "-9999") & num.isna()).to_numpy()
         i = int(np.argmax(bad))
-        raise InputError(f"{v.iloc[i]!r} is not a number (GHCN-Daily VALUE field)",
+        raise InputError(f"{excerpt(v.iloc[i])} is not a number (GHCN-Daily VALUE field)",
                          ctx.at(skip + 1 + i, "4 (VALUE)")) from None
-    except pd.errors.ParserError as exc:
-        raise InputError(f"malformed GHCN-Daily CSV ({exc})", ctx.label) from None
     lines = np.arange(len(raw)) + skip + 1
     keep = raw["id"].notna().to_numpy() & (raw["id"].str.strip() != "").to_numpy()
     raw, lines = raw.loc[keep], lines[keep]
@@ -1313,7 +1327,7 @@ def _read_ghcn_daily(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
     d = pd.to_datetime(raw["date"], format="%Y%m%d", errors="coerce")
     if d.isna().any():
         i = int(np.argmax(d.isna().to_numpy()))
-        raise InputError(f"cannot read {raw['date'].iloc[i]!r} as a date (YYYYMMDD)", ctx.at(int(lines[i]), "2 (DATE)"))
+        raise InputError(f"cannot read {excerpt(raw['date'].iloc[i])} as a date (YYYYMMDD)", ctx.at(int(lines[i]), "2 (DATE)"))
     dup = pd.DataFrame({"d": d.to_numpy(), "e": el}).duplicated().to_numpy()
     if dup.any():
         i = int(np.argmax(dup))

@@ -105,6 +105,13 @@ def check_settings(return_period, distribution: str, system: str) -> list[tuple[
             ("distribution", distribution), ("units", system)]
 
 
+def envelope_name(section_id: str) -> str:
+    """File name of a section's force envelope plot (safe for any id, see :func:`trackplan.reports.safe_name`)."""
+    from trackplan.reports import safe_name
+
+    return f"force_envelope_{safe_name(section_id)}.png"
+
+
 def write_check_outputs(out: Path, results, sections_file: Path, system: str, settings=None) -> list[Path]:
     """CSV of all figures, a PNG force envelope per section, one HTML summary."""
     settings = check_settings(None, "gumbel", system) if settings is None else settings
@@ -115,7 +122,7 @@ def write_check_outputs(out: Path, results, sections_file: Path, system: str, se
     reports.matplotlib_backend()
     inputs = [sections_file] + [a.section.climate_path for a in results]
     out = reports.prepare_out_dir(out, inputs, planned=["check.csv", "check_summary.html"] +
-                                  [f"force_envelope_{a.section.id}.png" for a in results])
+                                  [envelope_name(a.section.id) for a in results])
     written = [reports.write_csv(out / "check.csv", pd.DataFrame(reports.check_rows(results)), inputs,
                                  settings=[("command", "trackplan check"), ("section file", str(sections_file)),
                                            *settings])]
@@ -123,7 +130,7 @@ def write_check_outputs(out: Path, results, sections_file: Path, system: str, se
     for a in results:
         png = reports.figure_png_bytes(reports.force_envelope_figure(a, system))
         pngs[a.section.id] = png
-        written.append(reports.write_atomic(out / f"force_envelope_{a.section.id}.png",
+        written.append(reports.write_atomic(out / envelope_name(a.section.id),
                                             lambda p, b=png: p.write_bytes(b), inputs))
     html = reports.check_html(results, pngs, CAUTION, system=system, network=network_name(sections_file),
                               generated=f"Section file {sections_file.name}; generated {dt.date.today().isoformat()} "
@@ -158,7 +165,8 @@ def check_cmd(
     reasons, worst first.
 
     Exit code: 0 when no section needs action, 1 when any section is 'act' (for
-    scripts), 2 for bad input (good sections are still reported unless --strict).
+    scripts), 2 for bad input (good sections are still reported unless --strict),
+    3 for an internal error (a fault to report).
 
     Example: trackplan check examples/network.toml --out check-report
     """

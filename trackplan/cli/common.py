@@ -1,7 +1,9 @@
 """Shared pieces of the command line: the app, error handling, JSON, units.
 
-* :func:`command` registers a subcommand and turns :class:`InputError` into a
-  one-line message on stderr and exit code 2 (never a traceback).
+* :func:`command` registers a subcommand behind the command boundary: an
+  :class:`InputError` (or an unusable file) becomes a one-line message on stderr
+  and exit code 2; anything unforeseen a plain "internal error" line, the details
+  in a file to report, and exit code 3. Never a traceback.
 * :func:`emit_json` prints one JSON object on stdout (SI, units in key names).
 * :func:`print_caution` prints the caution under a result a person may act on.
 """
@@ -99,13 +101,29 @@ def _width(stream) -> int | None:
     return None if stream.isatty() or os.environ.get("COLUMNS", "").strip().isdigit() else PIPED_WIDTH
 
 
-console = Console(width=_width(sys.stdout))
+class _Console(Console):
+    """A rich console that never stops a run on text from a file: if a line's markup cannot be
+    read (a station or section name with ``[/...]`` in it), the line is printed as plain text."""
+
+    def print(self, *objects, **kwargs):
+        from rich.errors import MarkupError
+
+        try:
+            return super().print(*objects, **kwargs)
+        except MarkupError:
+            kwargs["markup"] = False
+            return super().print(*objects, **kwargs)
+
+
+console = _Console(width=_width(sys.stdout))
 
 
 def wide_console() -> Console:
     """A console for the --wide tables: at least :data:`WIDE_WIDTH` columns (they are asked for)."""
-    return Console(width=max(console.width, WIDE_WIDTH))
-err_console = Console(stderr=True, width=_width(sys.stderr))
+    return _Console(width=max(console.width, WIDE_WIDTH))
+
+
+err_console = _Console(stderr=True, width=_width(sys.stderr))
 
 
 class UnitSystem(str, Enum):
@@ -145,19 +163,166 @@ def fail(exc: InputError) -> None:
     raise typer.Exit(2)
 
 
+#: Exit code of an unforeseen failure inside trackplan (a fault to report, not bad input).
+EXIT_INTERNAL = 3
+
+#: Field names of computation modules -> the option name of the same value, where they differ.
+FIELD_OPTIONS = {
+    "rail_temperature_method": "method",
+    "latitude": "lat",
+    "longitude": "lon",
+    "track_azimuth": "azimuth",
+    "rail_temperature": "rail_temp",
+}
+
+
+def _option_for(field: str | None) -> str | None:
+    """The option of the running command that carries ``field`` (``None`` if none does)."""
+    import click
+
+    ctx = click.get_current_context(silent=True)
+    if field is None or ctx is None:
+        return None
+    names = {}
+    for p in ctx.command.params:
+        opts = [o for o in getattr(p, "opts", []) if o.startswith("--")]
+        if opts:
+            names[p.name] = opts[0]
+            names[opts[0][2:].replace("-", "_")] = opts[0]
+    parts = [names.get(f) or names.get(FIELD_OPTIONS.get(f, "")) for f in field.split("/")]
+    return "/".join(parts) if all(parts) else None
+
+
+def _locate(exc: InputError) -> InputError:
+    """An error raised by a computation module names a field: put the command's option there."""
+    if exc.field is not None and exc.where == exc.field:
+        option = _option_for(exc.field)
+        if option is not None:
+            return exc.relocated(option)
+    return exc
+
+
+def _os_error(exc: OSError) -> InputError:
+    from trackplan.errors import excerpt
+
+    name = f" {excerpt(exc.filename, 80)}" if exc.filename is not None else ""
+    return InputError(f"cannot use the file{name}: {exc.strerror or type(exc).__name__}")
+
+
+def internal_error(exc: BaseException) -> None:
+    """Report an unforeseen failure plainly (no traceback on the terminal), keep the details in a
+    file for the report, and exit with :data:`EXIT_INTERNAL`."""
+    import os
+    import tempfile
+    import traceback
+
+    from rich.text import Text
+
+    from trackplan.errors import excerpt
+
+    detail = ""
+    try:
+        fd, path = tempfile.mkstemp(prefix="trackplan-error-", suffix=".txt")
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write("trackplan " + " ".join(sys.argv[1:]) + "\n\n")
+            fh.write("".join(traceback.format_exception(exc)))
+        detail = f" Details: {path}."
+    except OSError:
+        pass
+    err_console.print(
+        Text("internal error: ", style="bold red")
+        + Text(f"{type(exc).__name__}: {excerpt(exc, 120)}. This is a fault in trackplan, not in your input; "
+               f"please report it to the trackplan maintainers with the command line and its input files."
+               f"{detail}"),
+        highlight=False, soft_wrap=True,
+    )
+    raise typer.Exit(EXIT_INTERNAL)
+
+
+def run_guarded(fn, *args, **kw):
+    """Run a command function: bad input -> message and exit 2; anything unforeseen -> a plain
+    internal-error message and exit 3 (``TRACKPLAN_DEBUG=1`` lets the traceback through).
+    A writable ``--out`` folder is checked before the work, and the files written into it are
+    moved into place as a set when the command ends (:func:`trackplan.reports.output_session`).
+    Numerical warnings (numpy, pandas) never reach the terminal: the figures they concern are
+    checked and reported by the computation itself."""
+    import os
+    import warnings
+
+    import click
+
+    from trackplan import reports
+
+    previous = _catch_sigterm()
+    try:
+        out = kw.get("out")
+        if out is not None:  # before any work, naming the folder
+            reports.check_writable(out, [v for k, v in kw.items() if k != "out" and isinstance(v, Path)])
+        with warnings.catch_warnings(), reports.output_session():
+            warnings.simplefilter("ignore")
+            return fn(*args, **kw)
+    except Terminated:
+        err_console.print("stopped (terminated); no output file was changed", highlight=False)
+        raise typer.Exit(143)
+    except InputError as exc:
+        fail(_locate(exc))
+    except (typer.Exit, click.exceptions.Exit, click.exceptions.Abort, click.exceptions.ClickException):
+        raise
+    except KeyboardInterrupt:
+        err_console.print("interrupted; no output file was changed", highlight=False)
+        raise typer.Exit(130)
+    except OSError as exc:
+        # a file the user named could not be read or written: a usage problem, not a crash
+        fail(_os_error(exc))
+    except UnicodeDecodeError as exc:
+        fail(InputError(f"cannot read the file as text ({exc.reason} at byte {exc.start}); save it as UTF-8"))
+    except Exception as exc:  # the command boundary: nothing escapes as a traceback
+        if os.environ.get("TRACKPLAN_DEBUG"):
+            raise
+        internal_error(exc)
+    finally:
+        _restore_sigterm(previous)
+
+
+class Terminated(BaseException):
+    """SIGTERM received while a command runs: unwinds like an interrupt, so that the files
+    staged for ``--out`` are discarded and the previous output set stays as it was."""
+
+
+def _on_sigterm(signum, frame):
+    raise Terminated()
+
+
+def _catch_sigterm():
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        return None
+    try:
+        return signal.signal(signal.SIGTERM, _on_sigterm)
+    except (ValueError, OSError):  # pragma: no cover
+        return None
+
+
+def _restore_sigterm(previous) -> None:
+    import signal
+
+    if previous is not None:
+        try:
+            signal.signal(signal.SIGTERM, previous)
+        except (ValueError, OSError):  # pragma: no cover
+            pass
+
+
 def command(name: str | None = None, on: typer.Typer | None = None, **kwargs):
-    """Register a subcommand on :data:`app` (or on the command group ``on``) with input-error handling."""
+    """Register a subcommand on :data:`app` (or on the command group ``on``) behind the command
+    boundary (:func:`run_guarded`)."""
 
     def deco(fn):
         @functools.wraps(fn)
         def wrapper(*args, **kw):
-            try:
-                return fn(*args, **kw)
-            except InputError as exc:
-                fail(exc)
-            except (IsADirectoryError, PermissionError, FileNotFoundError, UnicodeDecodeError) as exc:
-                # a file the user named could not be read or written: a usage problem, not a crash
-                fail(InputError(f"cannot use the file ({exc})"))
+            return run_guarded(fn, *args, **kw)
 
         (on or app).command(name, **kwargs)(wrapper)
         return fn

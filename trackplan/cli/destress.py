@@ -97,16 +97,16 @@ def read_job(path: Path) -> dict:
     dict
         field -> (SI value or text, where) for the fields present.
     """
+    from trackplan import safeio
+
+    where = f"--job {path}"
+    text = safeio.read_text(safeio.check_path(path, where), where)
     try:
-        data = tomllib.loads(Path(path).read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError("file not found", f"--job {path}") from None
-    except IsADirectoryError:
-        raise InputError("is a folder; give a TOML job file", f"--job {path}") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read the file ({exc})", f"--job {path}") from None
+        data = tomllib.loads(text)
+    except RecursionError:
+        raise InputError("not valid TOML for trackplan (values nested too deeply)", where) from None
     except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"not valid TOML ({exc})", f"--job {path}") from None
+        raise InputError(f"not valid TOML ({exc})", where) from None
     table = data.get("destress")
     if not isinstance(table, dict):
         raise InputError("no [destress] table found (see `trackplan destress --help`)", str(path))
@@ -209,10 +209,10 @@ def destress_cmd(
 
     Example: trackplan destress --rail 60E1 --length "400 m" --rail-temp "15 degC" --target "27 degC" --marks "50 m" --tensor-capacity "600 kN" --out crew
     """
-    job_data = read_job(job) if job else {}
+    job_data = read_job(job) if job is not None else {}
     s = system.value
     rail_name, _ = _opt(rail, "rail", None, job_data, system, required=True)
-    extra = rails.load_user_profiles(profiles_file) if profiles_file else None
+    extra = rails.load_user_profiles(profiles_file) if profiles_file is not None else None
     profile = rails.get_profile(rail_name, extra)
     st = resolve_steel(
         profile,

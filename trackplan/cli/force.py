@@ -31,10 +31,10 @@ RAIL_RANGE_C = (-60.0, 90.0)
 def resolve_steel(profile: rails.RailProfile, steel: Optional[str], E: Optional[str], alpha: Optional[str]) -> thermal.Steel:
     """Steel constants for a run: the preset of the profile family, a named preset, then overrides."""
     base = thermal.steel_preset(steel) if steel else thermal.default_steel(profile.is_north_american)
-    E_Pa = units.parse(E, "stress", "--youngs-modulus") if E else base.E_Pa
-    a = units.parse(alpha, "expansion", "--alpha") if alpha else base.alpha_per_K
+    E_Pa = units.parse(E, "stress", "--youngs-modulus") if E is not None else base.E_Pa
+    a = units.parse(alpha, "expansion", "--alpha") if alpha is not None else base.alpha_per_K
     thermal.check_steel(E_Pa, a, "--youngs-modulus/--alpha")
-    if E or alpha:
+    if E is not None or alpha is not None:
         return thermal.Steel(E_Pa, a, "custom", f"{base.name} with overrides")
     return base
 
@@ -72,7 +72,7 @@ def force_cmd(
 
     Example: trackplan force --rail 60E1 --neutral "27 degC" --at "60 degC" --at "-20 degC" --resistance "8 kN/m"
     """
-    extra = rails.load_user_profiles(profiles_file) if profiles_file else None
+    extra = rails.load_user_profiles(profiles_file) if profiles_file is not None else None
     profile = rails.get_profile(rail, extra)
     st = resolve_steel(profile, steel, youngs_modulus, alpha)
     t_n, echo_n = parse_option(neutral, "temperature", "--neutral", system)

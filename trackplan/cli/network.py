@@ -24,7 +24,7 @@ def read_sections(path: Path, strict: bool, register: Path | None = None):
     assessed from the file). Returns the SectionFile."""
     from trackplan.sections import load_sections
 
-    sf = load_sections(path, strict=strict)
+    sf = load_sections(path)
     if register is not None:
         from trackplan.register import apply_register
 
@@ -33,8 +33,7 @@ def read_sections(path: Path, strict: bool, register: Path | None = None):
         except InputError as exc:
             raise InputError(exc.bare_message, f"--register {exc.where}") from None
         sf.problems = sf.problems + more
-        if strict and sf.problems:
-            raise sf.problems[0]
+    refuse_if_strict(strict, sf.problems)
     return sf
 
 
@@ -44,7 +43,8 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
     """Read the section file (and the register, if given) and assess its sections.
 
     ``column`` (``--column`` texts), ``tz`` and ``allow_short`` override every section's.
-    Returns ``(assessments, problems)``; with ``strict`` the first problem is raised.
+    Returns ``(assessments, problems, assessor)``; with ``strict`` any problem ends the run
+    (all of them reported, exit 2).
     """
     from trackplan import columns
     from trackplan.assess import Assessor
@@ -68,8 +68,7 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
     else:
         results, problems = assessor.assess_all(sf.sections)
     problems = sf.problems + problems
-    if strict and problems:
-        raise problems[0]
+    refuse_if_strict(strict, problems)
     return results, problems, assessor
 
 
@@ -137,11 +136,19 @@ def read_records(assessor, sections, bar) -> None:
     bar.refresh()
     for sec in first.values():
         try:
-            assessor.record(sec.climate_path, f"{sec.file.name} [sections.{sec.id}] climate", sec)
+            assessor.record(sec.climate_path, f"{sec.file.name} [sections.{sec.id}] climate {sec.climate_path.name}", sec)
         except InputError:
             pass  # reported with its section
         bar.advance(task)
         bar.refresh()
+
+
+def refuse_if_strict(strict: bool, problems: list[InputError]) -> None:
+    """With --strict, any problem refuses the run: every problem is reported, exit 2."""
+    if strict and problems:
+        report_problems(problems, None)
+        err_console.print("--strict: nothing computed; correct the problems above.", highlight=False)
+        raise typer.Exit(2)
 
 
 def report_problems(problems: list[InputError], n_ok: int | None = None) -> None:
@@ -153,6 +160,6 @@ def report_problems(problems: list[InputError], n_ok: int | None = None) -> None
     counts = Counter(str(p) for p in problems)
     for text, n in counts.items():
         print_error(InputError(text + (f" ({n} sections)" if n > 1 else "")))
-    if problems:
+    if problems and n_ok is not None:
         err_console.print("No section could be assessed." if n_ok == 0 else
                           f"{len(problems)} section(s) could not be assessed; the others are above.", highlight=False)

@@ -27,7 +27,7 @@ def profiles_cmd(
 
     Example: trackplan profiles --units us
     """
-    extra = rails.load_user_profiles(profiles_file) if profiles_file else None
+    extra = rails.load_user_profiles(profiles_file) if profiles_file is not None else None
     rows = rails.profile_rows(extra)
     if as_json:
         emit_json({"profiles": [p.as_json() for p in rows]})

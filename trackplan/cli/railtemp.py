@@ -7,6 +7,7 @@ from pathlib import Path
 from typing import Optional
 
 import typer
+from rich.markup import escape
 from rich.panel import Panel
 from rich.table import Table
 
@@ -160,7 +161,7 @@ def railtemp_cmd(
 
 def _print(design, station, meta, site, profile, method, warnings, s, out) -> None:
     info = (
-        f"[bold]{station}[/]  {site.latitude_deg:.3f}°, {site.longitude_deg:.3f}°  "
+        f"[bold]{escape(station)}[/]  {site.latitude_deg:.3f}°, {site.longitude_deg:.3f}°  "
         f"({meta.get('source_format')}, {meta.get('time_step')}, zone {meta.get('tz') or 'not stated'})\n"
         f"rail {profile.name}, track azimuth {site.track_azimuth_deg:g}°, shade {site.shade_factor:g}, "
         f"method {method}"

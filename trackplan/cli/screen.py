@@ -14,7 +14,7 @@ from trackplan import CAUTION, __version__, units
 from trackplan.cli.common import (COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem, command, console,
                                   emit_json, err_console, parse_option, print_caution, progress_enabled, wide_console)
 from trackplan.cli.network import (REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, print_records, read_records,
-                                   read_sections, report_problems)
+                                   read_sections, refuse_if_strict, report_problems)
 from trackplan.errors import InputError
 from trackplan.screen_report import MIN_TREND_DAYS, heat_total, rate_text, signed, trend_text
 
@@ -60,8 +60,7 @@ def run_screen(sections_file: Path, options, strict: bool, register: Path | None
         result = screener.screen_all(sf.sections)
     result.problems = sf.problems + result.problems
     result.neutral_entries = {s.id: s.neutral_entry_id for s in sf.sections}
-    if strict and result.problems:
-        raise result.problems[0]
+    refuse_if_strict(strict, result.problems)
     return result
 
 

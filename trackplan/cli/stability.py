@@ -123,7 +123,7 @@ def stability_cmd(
     from trackplan import stability as st
     from trackplan.track import build_track
 
-    extra = rails.load_user_profiles(profiles_file) if profiles_file else None
+    extra = rails.load_user_profiles(profiles_file) if profiles_file is not None else None
     profile = rails.get_profile(rail, extra)
     steel = thermal.default_steel(profile.is_north_american)
     s = system.value
