@@ -115,8 +115,12 @@ def stability_cmd(
 
     A coupled axial-lateral beam model of the track panel on nonlinear ballast resistance,
     with longitudinal resistance, curvature and an initial misalignment, traced through
-    snap-through. Gives the upper and lower critical rise above neutral temperature, the
-    response (snap-through or progressive) and the allowable rise under a stated criterion.
+    snap-through, with a train standing on the track (its axles press the track down, it lifts
+    between bogies). Gives the upper and lower critical rise above neutral temperature of the
+    loaded and of the empty track, the response (snap-through or progressive) and the allowable
+    rise. The default criterion scales the loaded lower critical rise so that well-maintained
+    concrete-sleeper track gets the 26 K rise UK practice takes as critical; see
+    docs/methods/stability.md.
 
     Example: trackplan stability --rail 60E1 --sleeper concrete --ballast consolidated --radius "800 m" --misalignment "20 mm"
     """
