@@ -104,9 +104,9 @@ def write_outputs(out: Path, res, sections_file: Path, projections_dir: Path, sy
     written = [reports.write_csv(out / "outlook.csv", outlook_report.csv_frame(res), inputs)]
     pngs = {}
     for s in plotted:
-        fig = outlook_report.fan_figure(s, system)
-        written.append(reports.save_figure(out / f"outlook_{s.id}.png", fig, inputs))
-        pngs[s.id] = (out / f"outlook_{s.id}.png").read_bytes()
+        png = reports.figure_png_bytes(outlook_report.fan_figure(s, system))
+        written.append(reports.write_atomic(out / f"outlook_{s.id}.png", lambda p, b=png: p.write_bytes(b), inputs))
+        pngs[s.id] = png
     html = outlook_report.html_summary(res, pngs, CAUTION, system,
                                        f"Generated {dt.date.today().isoformat()} from {sections_file.name} and "
                                        f"{projections_dir}.")
