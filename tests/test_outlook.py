@@ -280,6 +280,22 @@ def test_existing_scheduler_over_loopback_gives_the_same_figures(dask_cluster, e
         assert eng.json() == {"kind": "dask", "scheduler": address, "workers": 2}
         res = outlook_run.run_outlook([s for s in sections if s.id == "HOT"], ensemble[0], opts, eng)
     assert res.sections[0].periods == local_result.sections[0].periods
+    # and both equal the same computation done here without Dask, function by function
+    from trackplan import projections
+    from trackplan.assess import Assessor
+
+    hot = [s for s in sections if s.id == "HOT"][0]
+    obs = outlook.station_daily(str(hot.climate_path))
+    spec = outlook_run.section_spec(hot, Assessor(), {"latitude_deg": obs.latitude_deg,
+                                                      "longitude_deg": obs.longitude_deg}, opts)
+    per = {}
+    for run in projections.scan_ensemble(ensemble[0]).runs:
+        cell = projections.nearest_cell(run.grid, spec.latitude_deg, spec.longitude_deg)
+        wins = outlook.chart_windows(run.first_year, run.last_year, opts.baseline)
+        adj = outlook.adjust_cell(obs, projections.read_cell(run, cell), opts.baseline, wins)
+        per[run.model] = outlook.screen_runs({0: adj}, [(spec, [0])])[(hot.id, 0)]
+    direct = outlook.ensemble_stats(per, opts.baseline, [opts.baseline, *opts.periods])
+    assert [dict(r, scenario="ssp585") for r in direct] == res.sections[0].periods
 
 
 def test_bad_inputs_reported_and_the_rest_computed(dask_cluster, ensemble, sections):
