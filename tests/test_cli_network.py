@@ -6,6 +6,7 @@ import json
 import re
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 import pytest
 
@@ -199,8 +200,8 @@ def test_check_out_refuses_input_file(run_cli, tmp_path):
     assert res.exit_code == 2 and "input" in res.output
 
 
-def test_parallel_assessment_equals_sequential(monkeypatch):
-    # The process pool shares climate records out between workers; the figures must not change.
+def test_parallel_assessment_equals_sequential(monkeypatch, dask_cluster):
+    # The Dask engine shares climate records out between workers; the figures must not change.
     from trackplan import assess
     from trackplan.sections import load_sections
 
@@ -208,12 +209,28 @@ def test_parallel_assessment_equals_sequential(monkeypatch):
     seq, p1 = assess.Assessor().assess_all(secs)
     monkeypatch.setattr(assess, "PARALLEL_MIN_SECTIONS", 2)
     monkeypatch.setattr(assess, "PARALLEL_MIN_TRACKS", 2)
-    par, p2 = assess.Assessor().assess_all(secs)
+    par, p2 = assess.Assessor().assess_all(secs, engine=dask_cluster[1])
     assert not p1 and not p2
     assert [a.section.id for a in par] == [a.section.id for a in seq]
     for a, b in zip(seq, par):
         assert a.check == b.check and a.target == b.target
         assert b.climate.design_max_C == a.climate.design_max_C and b.climate.warnings == a.climate.warnings
+
+
+def test_screening_on_the_engine_equals_in_process(monkeypatch, dask_cluster):
+    from trackplan import assess
+    from trackplan.screening import ScreenOptions, Screener
+    from trackplan.sections import load_sections
+
+    secs = load_sections(EXAMPLE, strict=True).sections
+    opts = ScreenOptions(months=(5, 9))
+    seq = Screener(assess.Assessor(), opts).screen_all(secs)
+    monkeypatch.setattr(assess, "PARALLEL_MIN_SECTIONS", 2)
+    par = Screener(assess.Assessor(), opts).screen_all(secs, engine=dask_cluster[1])
+    assert [s.id for s in par.sections] == [s.id for s in seq.sections]
+    for a, b in zip(seq.sections, par.sections):
+        assert a.heat_days_by_level == b.heat_days_by_level and a.cold_days == b.cold_days
+        assert np.array_equal(a.annual.restrict_days, b.annual.restrict_days)
 
 
 def test_output_name_clash_refused_before_writing(run_cli, tmp_path):

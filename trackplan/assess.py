@@ -303,18 +303,19 @@ class Assessor:
                                                 tunnel=section.shade_factor >= 0.9)
         return SectionAssessment(section, clim, stab, r, tgt, chk, practice)
 
-    def assess_all(self, sections: list[Section], progress=None) -> tuple[list[SectionAssessment], list[InputError]]:
+    def assess_all(self, sections: list[Section], progress=None,
+                   engine=None) -> tuple[list[SectionAssessment], list[InputError]]:
         """Assess every section, grouped by climate record; problems are collected, not raised.
 
-        With many sections on a machine with several cores, the climate records are shared
-        out between worker processes (each record's sections stay together, so its solar
-        geometry is still prepared once).
+        With many sections and a Dask ``engine`` (:mod:`trackplan.engine`), the climate
+        records are shared out between its workers (each record's sections stay together,
+        so its solar geometry is still prepared once).
 
         Returns the assessments in the order of ``sections`` and the problems found.
         """
         self.prepare_stability(sections)
         out = map_record_groups(lambda idx: self._assess_indices(sections, idx),
-                                sections, progress)
+                                sections, progress, engine)
         results = [out[i] for i in range(len(sections)) if isinstance(out.get(i), SectionAssessment)]
         problems = [out[i] for i in sorted(out) if isinstance(out[i], InputError)]
         return results, problems
@@ -353,9 +354,8 @@ def section_problem(section: Section, exc: BaseException) -> InputError:
                       "(a fault in trackplan; please report it with the section file)", where)
 
 
-#: Runs with at least this many sections share the climate records between processes.
+#: Runs with at least this many sections share the climate records out between Dask workers.
 PARALLEL_MIN_SECTIONS = 60
-_WORKER_STATE = None
 
 
 def _fork_context():
@@ -371,15 +371,16 @@ def _fork_context():
         return None
 
 
-def map_record_groups(work, sections, progress=None) -> dict:
+def map_record_groups(work, sections, progress=None, engine=None) -> dict:
     """Run ``work(indices)`` over the sections grouped by climate record.
 
     ``work`` returns a dict ``index -> result or InputError`` for the indices it is
     given (all of one record, in place order, so that the record's solar geometry is
-    prepared once). With at least :data:`PARALLEL_MIN_SECTIONS` sections, more than one
-    record and more than one core, the groups are shared out between forked worker
-    processes (results come back pickled: they should hold only what the parent needs).
-    Returns the merged dict.
+    prepared once). With a Dask ``engine`` (:mod:`trackplan.engine`), at least
+    :data:`PARALLEL_MIN_SECTIONS` sections and more than one record, each group is a
+    task on the engine's workers (``work`` and its results travel pickled: they
+    should hold only what is needed); otherwise the groups run here, one after the
+    other. Returns the merged dict.
     """
     groups: dict[str, list[int]] = {}
     for i in sorted(range(len(sections)), key=lambda i: (str(sections[i].climate_path),
@@ -387,34 +388,32 @@ def map_record_groups(work, sections, progress=None) -> dict:
                                                          sections[i].longitude_deg or 0.0)):
         groups.setdefault(str(sections[i].climate_path), []).append(i)
     out: dict = {}
-    ctx = _fork_context() if len(sections) >= PARALLEL_MIN_SECTIONS and len(groups) > 1 else None
-    if ctx is None:
+    if not use_engine(engine, sections, groups):
         for idx in groups.values():
             out.update(work(idx))
             if progress is not None:
                 for _ in idx:
                     progress()
         return out
-    import os
-    from concurrent.futures import ProcessPoolExecutor
+    from dask.distributed import as_completed
 
-    global _WORKER_STATE
-    _WORKER_STATE = work
-    try:
-        with ProcessPoolExecutor(max_workers=min(os.cpu_count() or 1, len(groups), 8), mp_context=ctx) as pool:
-            for part in pool.map(_run_group, sorted(groups.values(), key=len, reverse=True)):
-                out.update(part)
-                if progress is not None:
-                    for _ in part:
-                        progress()
-    finally:
-        _WORKER_STATE = None
+    client = engine.client
+    futures = [client.submit(work, idx, pure=False) for idx in sorted(groups.values(), key=len, reverse=True)]
+    for fut in as_completed(futures):
+        part = fut.result()
+        out.update(part)
+        if progress is not None:
+            for _ in part:
+                progress()
     return out
 
 
-def _run_group(indices):
-    """Worker: run the inherited work function on one record's sections."""
-    return _WORKER_STATE(indices)
+def use_engine(engine, sections, groups=None) -> bool:
+    """Whether a run of ``sections`` goes to the Dask engine (large enough, several records)."""
+    if engine is None or len(sections) < PARALLEL_MIN_SECTIONS:
+        return False
+    n_groups = len(groups) if groups is not None else len({str(s.climate_path) for s in sections})
+    return n_groups > 1
 
 
 def _solve_track(inp):

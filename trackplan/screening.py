@@ -969,8 +969,8 @@ class Screener:
             inputs=dict(view.inputs),
         )
 
-    def screen_all(self, sections, progress=None) -> ScreenResult:
-        """Screen every section, grouped by climate record; problems are collected, not raised."""
+    def screen_all(self, sections, progress=None, engine=None) -> ScreenResult:
+        """Screen every section by climate record (on a Dask ``engine`` when large); problems collected."""
         from trackplan.sections import DISTURBING_EVENTS
 
         disturbed = [s for s in sections if any(ev.kind in DISTURBING_EVENTS for ev in s.events)]
@@ -988,7 +988,7 @@ class Screener:
                     part[i] = section_problem(sections[i], exc)
             return part
 
-        out = map_record_groups(work, sections, progress)
+        out = map_record_groups(work, sections, progress, engine)
         results = [out[i] for i in range(len(sections)) if isinstance(out.get(i), SectionScreen)]
         problems = [out[i] for i in sorted(out) if isinstance(out[i], InputError)]
         return ScreenResult(self.options, results, problems)

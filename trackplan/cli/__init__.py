@@ -24,6 +24,7 @@ COMMAND_MODULES = [
     "check",
     "screen",
     "register",
+    "outlook",
     "demo",
 ]
 

@@ -14,7 +14,7 @@ from trackplan import CAUTION, __version__, notices, units
 from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
                                   command, console, emit_json, print_caution, wide_console)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
-                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, network_name, print_data_warnings,
+                                   SCHEDULER_OPTION, SECTIONS_ARG, STRICT_OPTION, load_and_assess, network_name, print_data_warnings,
                                    print_records,
                                    report_problems)
 
@@ -152,6 +152,7 @@ def check_cmd(
     allow_short: bool = ALLOW_SHORT_OPTION,
     strict: bool = STRICT_OPTION,
     register: Optional[Path] = REGISTER_OPTION,
+    scheduler: Optional[str] = SCHEDULER_OPTION,
     system: UnitSystem = UNITS_OPTION,
     wide: bool = typer.Option(False, "--wide", help="Add the forces per rail and the target neutral temperature to the table."),
     as_json: bool = JSON_OPTION,
@@ -173,7 +174,8 @@ def check_cmd(
     from trackplan.check import rank_key
 
     results, problems, _ = load_and_assess(sections_file, strict, return_period, distribution, register,
-                                           priority, column=column, tz=tz, allow_short=allow_short)
+                                           priority, column=column, tz=tz, allow_short=allow_short,
+                                           scheduler=scheduler)
     results = sorted(results, key=lambda a: rank_key(a.check))
     settings = check_settings(return_period, distribution, system.value)
     written = write_check_outputs(out, results, sections_file, system.value, settings) if out is not None else []

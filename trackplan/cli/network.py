@@ -37,9 +37,12 @@ def read_sections(path: Path, strict: bool, register: Path | None = None):
     return sf
 
 
+SCHEDULER_OPTION = typer.Option(None, "--scheduler", help="Run on an existing Dask cluster at tcp://HOST:PORT (default: a local cluster sized to this machine for large networks, else in this process).")
+
+
 def load_and_assess(path: Path, strict: bool, return_period: float | None, distribution: str,
                     register: Path | None = None, priority: str = "heat", column: list[str] | None = None,
-                    tz: str | None = None, allow_short: bool = False):
+                    tz: str | None = None, allow_short: bool = False, scheduler: str | None = None):
     """Read the section file (and the register, if given) and assess its sections.
 
     ``column`` (``--column`` texts), ``tz`` and ``allow_short`` override every section's.
@@ -57,16 +60,20 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
         raise InputError(f"unknown priority {priority!r}; accepted: heat, cold", "--priority")
     sf = read_sections(path, strict, register)
     assessor = Assessor(return_period, distribution, priority, columns.parse_options(column), tz, allow_short)
-    if progress_enabled() and len(sf.sections) > 3:
-        from rich.progress import Progress
+    from trackplan.engine import engine_for
 
-        # no refresh thread (auto_refresh=False): worker processes are forked during the run
-        with Progress(console=err_console, transient=True, auto_refresh=False) as bar:
-            read_records(assessor, sf.sections, bar)
-            task = bar.add_task("rail temperatures, stability and verdicts", total=len(sf.sections))
-            results, problems = assessor.assess_all(sf.sections, progress=lambda: (bar.advance(task), bar.refresh()))
-    else:
-        results, problems = assessor.assess_all(sf.sections)
+    with engine_for(sf.sections, scheduler) as engine:
+        if progress_enabled() and len(sf.sections) > 3:
+            from rich.progress import Progress
+
+            # no refresh thread (auto_refresh=False): stability worker processes may be forked during the run
+            with Progress(console=err_console, transient=True, auto_refresh=False) as bar:
+                read_records(assessor, sf.sections, bar)
+                task = bar.add_task("rail temperatures, stability and verdicts", total=len(sf.sections))
+                results, problems = assessor.assess_all(sf.sections, engine=engine,
+                                                        progress=lambda: (bar.advance(task), bar.refresh()))
+        else:
+            results, problems = assessor.assess_all(sf.sections, engine=engine)
     problems = sf.problems + problems
     refuse_if_strict(strict, problems)
     return results, problems, assessor

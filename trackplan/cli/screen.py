@@ -13,8 +13,8 @@ from rich.table import Table
 from trackplan import CAUTION, __version__, units
 from trackplan.cli.common import (COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem, command, console,
                                   emit_json, err_console, parse_option, print_caution, progress_enabled, wide_console)
-from trackplan.cli.network import (REGISTER_OPTION, SECTIONS_ARG, STRICT_OPTION, print_records, read_records,
-                                   read_sections, refuse_if_strict, report_problems)
+from trackplan.cli.network import (REGISTER_OPTION, SCHEDULER_OPTION, SECTIONS_ARG, STRICT_OPTION, print_records,
+                                   read_records, read_sections, refuse_if_strict, report_problems)
 from trackplan.errors import InputError
 from trackplan.screen_report import MIN_TREND_DAYS, heat_total, rate_text, signed, trend_text
 
@@ -39,7 +39,8 @@ def build_options(date_from, date_to, months, warming, neutral_override, watch_f
                                    season=None if season is None else season.strip().lower()).validate()
 
 
-def run_screen(sections_file: Path, options, strict: bool, register: Path | None = None, column=None, tz=None):
+def run_screen(sections_file: Path, options, strict: bool, register: Path | None = None, column=None, tz=None,
+               scheduler: str | None = None):
     """Read the section file (and the register, if given) and screen its sections; returns the ScreenResult
     (its ``neutral_entries``: section id -> register entry id of the latest neutral, or None)."""
     from trackplan import columns
@@ -48,16 +49,20 @@ def run_screen(sections_file: Path, options, strict: bool, register: Path | None
 
     sf = read_sections(sections_file, strict, register)
     screener = Screener(Assessor(columns=columns.parse_options(column), tz=tz), options)
-    if progress_enabled() and len(sf.sections) > 3:
-        from rich.progress import Progress
+    from trackplan.engine import engine_for
 
-        # no refresh thread (auto_refresh=False): worker processes are forked during the run
-        with Progress(console=err_console, transient=True, auto_refresh=False) as bar:
-            read_records(screener.assessor, sf.sections, bar)
-            task = bar.add_task("rail temperatures and risk days", total=len(sf.sections))
-            result = screener.screen_all(sf.sections, progress=lambda: (bar.advance(task), bar.refresh()))
-    else:
-        result = screener.screen_all(sf.sections)
+    with engine_for(sf.sections, scheduler) as engine:
+        if progress_enabled() and len(sf.sections) > 3:
+            from rich.progress import Progress
+
+            # no refresh thread (auto_refresh=False): stability worker processes may be forked during the run
+            with Progress(console=err_console, transient=True, auto_refresh=False) as bar:
+                read_records(screener.assessor, sf.sections, bar)
+                task = bar.add_task("rail temperatures and risk days", total=len(sf.sections))
+                result = screener.screen_all(sf.sections, engine=engine,
+                                             progress=lambda: (bar.advance(task), bar.refresh()))
+        else:
+            result = screener.screen_all(sf.sections, engine=engine)
     result.problems = sf.problems + result.problems
     result.neutral_entries = {s.id: s.neutral_entry_id for s in sf.sections}
     refuse_if_strict(strict, result.problems)
@@ -381,6 +386,7 @@ def screen_cmd(
     tz: Optional[str] = TZ_OPTION,
     strict: bool = STRICT_OPTION,
     register: Optional[Path] = REGISTER_OPTION,
+    scheduler: Optional[str] = SCHEDULER_OPTION,
     system: UnitSystem = UNITS_OPTION,
     wide: bool = typer.Option(False, "--wide", help="Add the record's dates, missing days and the worst day's rise to the table."),
     as_json: bool = JSON_OPTION,
@@ -406,7 +412,7 @@ def screen_cmd(
     from trackplan import screening
 
     options = build_options(date_from, date_to, months, warming, neutral_override, watch_fraction, system.value, season)
-    result = run_screen(sections_file, options, strict, register, column, tz)
+    result = run_screen(sections_file, options, strict, register, column, tz, scheduler)
     written = write_outputs(out, result, sections_file, system.value) if out is not None else []
     if as_json:
         emit_json({
