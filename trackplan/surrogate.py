@@ -13,7 +13,7 @@ Inputs of the stand-in (each a factor or value against the family's own track):
 * ``longitudinal_factor``: factor on the longitudinal resistance (1 when the track is held rigid);
 * ``misalignment_m``: misalignment amplitude [m] (its length stays the family's).
 
-Outputs: the physical buckling rise (:func:`trackplan.stability.physical_base`: lower critical
+Outputs (each at most :data:`CAP_K`, 100 K): the physical buckling rise (:func:`trackplan.stability.physical_base`: lower critical
 rise for snap-through, rise at 25 mm lateral displacement for progressive response, never above
 the upper critical rise), the upper critical rise and the allowable rise [K].
 
@@ -43,11 +43,18 @@ from pathlib import Path
 import numpy as np
 
 #: Version of the stand-in's grid and of the model it stands in for; bump when either changes.
-MODEL_VERSION = "risk-surrogate-1"
+MODEL_VERSION = "risk-surrogate-2"
 #: Default grid: (low, high, points) of each input; factors and misalignment on log-spaced axes.
-PEAK_AXIS = (0.35, 2.5, 8)
-LONGITUDINAL_AXIS = (0.4, 2.5, 4)
-MISALIGNMENT_AXIS_M = (0.006, 0.07, 9)
+#: With the default spreads (data/risk_inputs.csv) the grid spans about -4.9..+4.5 standard
+#: deviations of the peak resistance, -3.6..+3.8 of the longitudinal resistance and -4.5..+4.0
+#: of the misalignment (median 20 mm); beyond it the full model answers.
+PEAK_AXIS = (0.3, 3.0, 9)
+LONGITUDINAL_AXIS = (0.35, 3.0, 4)
+MISALIGNMENT_AXIS_M = (0.0033, 0.1, 11)
+#: Rises above this are given as this value [K]: no rail temperature reaches a rise of 100 K above a
+#: neutral temperature in use (80 degC rail above a -20 degC neutral), and the analysis gives the rise
+#: of a track that does not buckle at all as its limit of 200 K, a jump no interpolation can follow.
+CAP_K = 100.0
 #: Names of the outputs, in the order of the stored arrays.
 OUTPUTS = ("buckling_rise_K", "upper_critical_rise_K", "allowable_rise_K")
 ENV_CACHE = "TRACKPLAN_CACHE_DIR"
@@ -89,8 +96,11 @@ def family_key(inp, axes) -> str:
     return h.hexdigest()[:24]
 
 
-def _axes(peak=PEAK_AXIS, longitudinal=LONGITUDINAL_AXIS, misalignment=MISALIGNMENT_AXIS_M):
-    return [np.geomspace(lo, hi, n) for lo, hi, n in (peak, longitudinal, misalignment)]
+def _axes(peak=None, longitudinal=None, misalignment=None):
+    """Grid axes ``[peak factors, longitudinal factors, misalignments]`` (log-spaced); default the
+    module's :data:`PEAK_AXIS`, :data:`LONGITUDINAL_AXIS` and :data:`MISALIGNMENT_AXIS_M`."""
+    spec = (peak or PEAK_AXIS, longitudinal or LONGITUDINAL_AXIS, misalignment or MISALIGNMENT_AXIS_M)
+    return [np.geomspace(lo, hi, n) for lo, hi, n in spec]
 
 
 def point_input(base, peak_factor: float, longitudinal_factor: float, misalignment_m: float):
@@ -105,7 +115,7 @@ def point_input(base, peak_factor: float, longitudinal_factor: float, misalignme
 
 def full_model(base, peak_factor: float, longitudinal_factor: float, misalignment_m: float):
     """``(buckling_rise_K, upper_critical_rise_K, allowable_rise_K)`` of the full analysis at one
-    point; NaNs where the curve cannot be traced."""
+    point, each at most :data:`CAP_K`; NaNs where the curve cannot be traced."""
     from trackplan.stability import StabilityError, physical_base, solve_equilibrium_curve
 
     try:
@@ -113,7 +123,7 @@ def full_model(base, peak_factor: float, longitudinal_factor: float, misalignmen
     except StabilityError:
         return (np.nan, np.nan, np.nan)
     b = physical_base(r.upper_critical_rise_K, r.lower_critical_rise_K, r.rise_at_displacement_limit_K)[0]
-    return (float(b), float(r.upper_critical_rise_K), float(r.allowable_rise_K))
+    return tuple(min(CAP_K, float(v)) for v in (b, r.upper_critical_rise_K, r.allowable_rise_K))
 
 
 def _solve_row(args):
