@@ -116,7 +116,7 @@ class Uncertainty:
     rail_temperature_daily_sd_K: float
 
     def as_json(self) -> dict:
-        return {k if k.endswith(("_K", "_cov", "_spread")) else k: v for k, v in asdict(self).items()}
+        return asdict(self)
 
     def fixed(self, driver: str) -> "Uncertainty":
         """The same spreads with one driver (a name of :data:`DRIVERS`) held at its median."""

@@ -192,7 +192,7 @@ class RiskRunner:
         """``capacity(pf, lf, mis)``: the stand-in, or the full model when nothing varies."""
         from trackplan import surrogate
 
-        if u.peak_resistance_cov == 0 and u.longitudinal_resistance_cov == 0 and u.misalignment_spread == 0:
+        if self.capacity_fixed(u):
             fam = surrogate.family_input(inp)
 
             def exact(pf, lf, mis):
@@ -256,16 +256,46 @@ class RiskRunner:
         return SectionRisk(section.id, section.name, base, drivers, measured, consolidated, u, tn0, m0,
                            float(median_rise), seasons, months, view.station, notes)
 
-    def run_all(self, sections, progress=None) -> RiskResult:
-        """Every section; bad sections are collected as problems, the others computed."""
-        out, problems = [], []
+    def prepare(self, sections) -> None:
+        """Load or build the stand-ins of every family the sections need (before any fork, so
+        worker processes inherit them)."""
+        if self.options.uncertainty is not None and self.capacity_fixed(self.options.uncertainty):
+            return
         for sec in sections:
-            try:
-                out.append(self.section_risk(sec))
-            except InputError as exc:
-                problems.append(exc)
-            if progress is not None:
-                progress()
+            for ballast in (None, "consolidated"):
+                if ballast is not None and sec.ballast == "consolidated":
+                    continue
+                try:
+                    self.surrogate(self.assessor.track_input(sec, ballast))
+                except InputError:
+                    continue  # reported when the section itself is run
+
+    @staticmethod
+    def capacity_fixed(u) -> bool:
+        return u.peak_resistance_cov == 0 and u.longitudinal_resistance_cov == 0 and u.misalignment_spread == 0
+
+    def run_all(self, sections, progress=None) -> RiskResult:
+        """Every section; bad sections are collected as problems, the others computed.
+
+        Sections are grouped by climate record; with many sections the groups are shared out
+        between forked worker processes (:func:`trackplan.assess.map_record_groups`).
+        """
+        from trackplan.assess import map_record_groups
+
+        self.prepare(sections)
+
+        def work(indices):
+            part = {}
+            for i in indices:
+                try:
+                    part[i] = self.section_risk(sections[i])
+                except InputError as exc:
+                    part[i] = exc
+            return part
+
+        got = map_record_groups(work, sections, progress)
+        out = [got[i] for i in range(len(sections)) if isinstance(got.get(i), SectionRisk)]
+        problems = [got[i] for i in sorted(got) if isinstance(got[i], InputError)]
         errs = [s.measured_error for s in self._surrogates.values() if s.measured_error is not None]
         out.sort(key=lambda r: (-r.probability, r.id))
         return RiskResult(self.options, out, problems, max(errs) if errs else None, len(self._surrogates),

@@ -116,10 +116,10 @@ def point_input(base, peak_factor: float, longitudinal_factor: float, misalignme
 def full_model(base, peak_factor: float, longitudinal_factor: float, misalignment_m: float):
     """``(buckling_rise_K, upper_critical_rise_K, allowable_rise_K)`` of the full analysis at one
     point, each at most :data:`CAP_K`; NaNs where the curve cannot be traced."""
-    from trackplan.stability import StabilityError, physical_base, solve_equilibrium_curve
+    from trackplan.stability import StabilityError, analyse_stability, physical_base
 
     try:
-        r = solve_equilibrium_curve(point_input(base, peak_factor, longitudinal_factor, misalignment_m))
+        r = analyse_stability(point_input(base, float(peak_factor), float(longitudinal_factor), misalignment_m))
     except StabilityError:
         return (np.nan, np.nan, np.nan)
     b = physical_base(r.upper_critical_rise_K, r.lower_critical_rise_K, r.rise_at_displacement_limit_K)[0]
@@ -290,9 +290,11 @@ def load_or_build(inp, axes=None, folder: Path | None = None, test_points: int =
 def measure_error(s: Surrogate, n: int = 300, seed: int = 0) -> dict:
     """Relative error of the stand-in against the full model on ``n`` random points of its domain.
 
-    Returns ``{"points", "max_error_pct", "p95_error_pct", "mean_error_pct", "failed", "worst"}``
-    for the buckling rise (the output the probability uses); ``worst`` lists the five worst points
-    ``(peak_factor, longitudinal_factor, misalignment_m, full_K, surrogate_K)``.
+    Returns ``{"points", "max_error_pct", "p95_error_pct", "mean_error_pct", "failed", "worst",
+    "max_error_below_80K_pct", "points_below_80K"}`` for the buckling rise (the output the
+    probability uses); ``worst`` lists the five worst points ``(peak_factor, longitudinal_factor,
+    misalignment_m, full_K, surrogate_K)``; the ``below_80K`` figures are over the points whose full
+    buckling rise is below 80 K (the rises daily rail temperatures can reach).
     """
     rng = np.random.default_rng(seed)
     lo = np.log([a[0] for a in s.axes])
@@ -304,6 +306,9 @@ def measure_error(s: Surrogate, n: int = 300, seed: int = 0) -> dict:
     err = np.abs(sur[ok] - full[ok]) / full[ok] * 100.0
     order = np.argsort(-err)[:5]
     Xo, fo, so = X[ok], full[ok], sur[ok]
+    low = fo < 80.0
     return {"points": int(ok.sum()), "failed": int((~ok).sum()), "max_error_pct": float(err.max()),
             "p95_error_pct": float(np.percentile(err, 95)), "mean_error_pct": float(err.mean()),
+            "max_error_below_80K_pct": float(err[low].max()) if low.any() else None,
+            "points_below_80K": int(low.sum()),
             "worst": [(float(Xo[i, 0]), float(Xo[i, 1]), float(Xo[i, 2]), float(fo[i]), float(so[i])) for i in order]}
