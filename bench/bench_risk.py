@@ -53,7 +53,8 @@ def stand_in(folder: Path) -> None:
               f"grid {n_pts} points built in {tb:.1f} s ({s.filled_points} filled), "
               f"300 test points in {tm:.1f} s; error max {e['max_error_pct']:.2f} %, 95th percentile "
               f"{e['p95_error_pct']:.2f} %, mean {e['mean_error_pct']:.2f} % ({e['failed']} test points failed in "
-              f"the full model); below 80 K ({e['points_below_80K']} points): max {e['max_error_below_80K_pct']:.2f} %; "
+              f"the full model); largest overstatement (unsafe side) {e['max_overstatement_pct']:.2f} %; share of "
+              f"points within 2 %: {e['share_within_2pct']:.1%}; below 80 K ({e['points_below_80K']} points): max {e['max_error_below_80K_pct']:.2f} %; "
               f"1e5 evaluations {te * 1e3:.0f} ms")
         # the same measured where the misalignment is 10 mm or more
         rng = np.random.default_rng(3)

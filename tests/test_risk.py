@@ -197,3 +197,23 @@ def test_zero_uncertainty_gives_zero_or_one_and_agrees_with_screen():
     critical = {int(y): int(c) > 0 for y, c in zip(years, sc.annual.critical_days)}
     assert per and all(per[y] == float(critical[y]) for y in per)
     assert 0.0 < r.probability < 1.0  # some seasons critical, some not: the check means something
+
+
+def test_a_cell_across_a_jump_gives_its_smallest_corner():
+    # a grid with a jump of the output between the 2nd and 3rd misalignment (as where the full model
+    # changes from one response to another): between them the stand-in must not interpolate upward
+    from trackplan import surrogate
+
+    axes = [np.geomspace(0.5, 2.0, 3), np.geomspace(0.5, 2.0, 2), np.geomspace(0.005, 0.08, 5)]
+    P, L, M = np.meshgrid(*axes, indexing="ij")
+    smooth = 50.0 * np.sqrt(P) * (M / 0.02) ** -0.05
+    vals = np.where(M > 0.012, smooth, 1.8 * smooth)
+    s = surrogate.Surrogate(base=None, axes=axes, values=np.stack([vals, vals, vals]))
+    jump_cell = s.jump_cells()
+    assert jump_cell[:, :, 1].all() and not jump_cell[:, :, [0, 2, 3]].any()
+    mid = np.sqrt(axes[2][1] * axes[2][2])
+    v = s.interpolate(1.0, 1.0, mid)
+    assert v == pytest.approx(50.0 * (axes[2][2] / 0.02) ** -0.05, rel=1e-9)  # the smaller corner
+    # elsewhere the interpolation is exact for a power law (linear in the logarithms)
+    m = np.sqrt(axes[2][3] * axes[2][4])
+    assert s.interpolate(1.0, 1.0, m) == pytest.approx(50.0 * (m / 0.02) ** -0.05, rel=1e-9)

@@ -330,14 +330,15 @@ def run(hot: np.ndarray, neutral_C: float, u: Uncertainty, capacity, misalignmen
     ----------
     hot : array, shape (n_seasons, k)
         :func:`top_days` of the section's record.
-    capacity : callable
-        ``capacity(peak_factor, longitudinal_factor, misalignment_m) -> buckling rise [K]`` (arrays).
+    capacity : callable or array
+        ``capacity(peak_factor, longitudinal_factor, misalignment_m) -> buckling rise [K]`` (arrays),
+        or the buckling rise of each sample already evaluated on these draws [K].
     d : Draws
         The section's draws (``d.daily`` has at least ``k`` columns).
     """
     k = hot.shape[1]
     tn = neutral_samples(neutral_C, u, d.z[:, 0], d.z[:, 1])
-    cap = capacity(*capacity_inputs(u, misalignment_m, d.z))
+    cap = capacity(*capacity_inputs(u, misalignment_m, d.z)) if callable(capacity) else capacity
     hit = buckles(hot[d.season], tn, cap, u.rail_temperature_bias_sd_K * d.z[:, 5],
                   u.rail_temperature_daily_sd_K * d.daily[:, :k])
     return estimate(hit, d.season, hot.shape[0])

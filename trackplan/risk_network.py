@@ -131,6 +131,7 @@ class RiskResult:
     surrogate_max_error_pct: float | None
     surrogate_families: int
     fallback_calls: int = 0
+    surrogate_max_overstatement_pct: float | None = None
 
     @property
     def network_expected_buckles_per_year(self) -> float:
@@ -231,8 +232,16 @@ class RiskRunner:
         d = risk.draw(risk.section_seed(o.seed, section.id), o.samples, len(seasons), risk.TOP_DAYS_MAX)
         tn0 = float(section.latest_neutral_temperature_C)
         m0 = float(section.misalignment_m)
-        cap = self.capacity(inp, u)
-        base = risk.run(hot, tn0, u, cap, m0, d)
+        memo = {}
+
+        def cap(track, uu):
+            """Buckling rise of each sample, evaluated once per track and capacity spreads."""
+            key = (track, uu.peak_resistance_cov, uu.longitudinal_resistance_cov, uu.misalignment_spread)
+            if key not in memo:
+                memo[key] = self.capacity(track, uu)(*risk.capacity_inputs(uu, m0, d.z))
+            return memo[key]
+
+        base = risk.run(hot, tn0, u, cap(inp, u), m0, d)
         drivers = {}
         if o.drivers:
             for name in risk.DRIVERS:
@@ -242,12 +251,12 @@ class RiskRunner:
                     continue
                 hot_f = hot if name != "rail_temperature" else risk.top_days(
                     view.rail_max_C[day_mask], remap[inverse[day_mask]], len(seasons), 0.0)
-                drivers[name] = base.probability - risk.run(hot_f, tn0, uf, self.capacity(inp, uf), m0, d).probability
-        measured = risk.run(hot, tn0, u.measured(), cap, m0, d)
+                drivers[name] = base.probability - risk.run(hot_f, tn0, uf, cap(inp, uf), m0, d).probability
+        measured = risk.run(hot, tn0, u.measured(), cap(inp, u), m0, d)
         consolidated = None
         if section.ballast != "consolidated":
             inp_c = self.assessor.track_input(section, "consolidated")
-            consolidated = risk.run(hot, tn0, u, self.capacity(inp_c, u), m0, d)
+            consolidated = risk.run(hot, tn0, u, cap(inp_c, u), m0, d)
         median_rise = surrogate.full_model(surrogate.family_input(inp), 1.0, 1.0, m0)[0]
         notes = []
         if section.events:
@@ -298,5 +307,6 @@ class RiskRunner:
         problems = [got[i] for i in sorted(got) if isinstance(got[i], InputError)]
         errs = [s.measured_error for s in self._surrogates.values() if s.measured_error is not None]
         out.sort(key=lambda r: (-r.probability, r.id))
+        overs = [s.measured_overstatement for s in self._surrogates.values() if s.measured_overstatement is not None]
         return RiskResult(self.options, out, problems, max(errs) if errs else None, len(self._surrogates),
-                          sum(s.fallback_calls for s in self._surrogates.values()))
+                          sum(s.fallback_calls for s in self._surrogates.values()), max(overs) if overs else None)

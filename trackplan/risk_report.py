@@ -2,7 +2,8 @@
 
 from __future__ import annotations
 
-from trackplan import risk
+from trackplan import risk, risk_network
+
 
 #: What the probability covers and leaves out (terminal, JSON and docs/methods/risk.md say the same).
 COVERAGE = (
@@ -73,6 +74,8 @@ def result_json(result, problems_where=None) -> dict:
         "seed": o.seed,
         "season": o.season,
         "surrogate_max_error_pct": result.surrogate_max_error_pct,
+        "surrogate_max_overstatement_pct": result.surrogate_max_overstatement_pct,
+        "surrogate_test_points_per_family": risk_network.BUILD_TEST_POINTS,
         "surrogate_families": result.surrogate_families,
         "measure_first": [{"id": s.id, "action": s.first_action[0], "probability_drop": s.first_action[1]}
                           for s in ranked_actions(result)],
@@ -121,14 +124,20 @@ def figure(result, max_sections: int = 30):
     p = np.array([s.probability for s in secs])
     se = np.array([s.estimate.standard_error for s in secs])
     up = np.array([s.estimate.upper_95 for s in secs])
-    a1.barh(y, p, color="#c0392b", alpha=0.8, label="probability per season")
-    a1.errorbar(p, y, xerr=2 * se, fmt="none", ecolor="k", capsize=3, lw=1, label="± 2 standard errors")
+    floor = 0.3 / result.options.samples  # log axis: the left edge, below the smallest estimable value
+    a1.barh(y, np.where(p > 0, p - floor, 0.0), left=floor, color="#c0392b", alpha=0.8,
+            label="probability per season")
+    lo_err = np.minimum(2 * se, p - floor)
+    a1.errorbar(np.where(p > 0, p, np.nan), y, xerr=[np.maximum(lo_err, 0), 2 * se], fmt="none", ecolor="k",
+                capsize=3, lw=1, label="± 2 standard errors")
+    a1.set_xscale("log")
+    a1.set_xlim(floor, 1.0)
     none = p == 0
     if none.any():
         a1.plot(up[none], y[none], "<", color="0.4", label="none in the samples: 95 % bound 3/n")
     a1.set_yticks(y, [s.id for s in secs], fontsize=8)
     a1.invert_yaxis()
-    a1.set_xlabel("probability of at least one buckle per season [-]")
+    a1.set_xlabel("probability of at least one buckle per season [-] (log scale)")
     a1.set_title(f"Buckling probability ({result.options.samples:,} samples, season {result.options.season})",
                  fontsize=10)
     a1.grid(axis="x", alpha=0.3)

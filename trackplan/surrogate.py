@@ -17,7 +17,10 @@ Outputs (each at most :data:`CAP_K`, 100 K): the physical buckling rise (:func:`
 rise for snap-through, rise at 25 mm lateral displacement for progressive response, never above
 the upper critical rise), the upper critical rise and the allowable rise [K].
 
-Interpolation is multilinear in the logarithms of the inputs and of the outputs. Outside the
+Interpolation is multilinear in the logarithms of the inputs and of the outputs; a grid cell
+next to an edge where the output changes by far more than elsewhere along that axis straddles a
+jump of the full model and gives its smallest corner (never overstating the buckling rise across
+the jump). Outside the
 grid the full analysis answers (memoised on inputs rounded to 0.5 % in the logarithm). A grid
 point where the full analysis cannot trace the curve takes its neighbour's value along the
 misalignment axis and is counted in :attr:`Surrogate.filled_points`.
@@ -43,7 +46,7 @@ from pathlib import Path
 import numpy as np
 
 #: Version of the stand-in's grid and of the model it stands in for; bump when either changes.
-MODEL_VERSION = "risk-surrogate-2"
+MODEL_VERSION = "risk-surrogate-3"
 #: Default grid: (low, high, points) of each input; factors and misalignment on log-spaced axes.
 #: With the default spreads (data/risk_inputs.csv) the grid spans about -4.9..+4.5 standard
 #: deviations of the peak resistance, -3.6..+3.8 of the longitudinal resistance and -4.5..+4.0
@@ -55,6 +58,12 @@ MISALIGNMENT_AXIS_M = (0.0033, 0.1, 11)
 #: neutral temperature in use (80 degC rail above a -20 degC neutral), and the analysis gives the rise
 #: of a track that does not buckle at all as its limit of 200 K, a jump no interpolation can follow.
 CAP_K = 100.0
+#: A grid edge along which the output changes (in its logarithm) by more than this many times the
+#: median change along that axis, and by more than :data:`JUMP_MIN_LOG`, straddles a jump of the
+#: full model (snap-through to progressive response, the re-traced buckled branch, the cap); the
+#: cells touching it take their smallest corner value instead of the interpolation (safe side).
+JUMP_RATIO = 3.0
+JUMP_MIN_LOG = 0.3
 #: Names of the outputs, in the order of the stored arrays.
 OUTPUTS = ("buckling_rise_K", "upper_critical_rise_K", "allowable_rise_K")
 ENV_CACHE = "TRACKPLAN_CACHE_DIR"
@@ -152,6 +161,7 @@ class Surrogate:
     values: np.ndarray
     filled_points: int = 0
     measured_error: float | None = None  # largest relative error on random test points at build [%]
+    measured_overstatement: float | None = None  # largest overstatement of the buckling rise there [%]
     fallback_calls: int = 0
     _memo: dict = field(default_factory=dict, repr=False)
 
@@ -161,6 +171,25 @@ class Surrogate:
             self._logv = np.log(self.values)
         return self._logv
 
+    def jump_cells(self, output: int = 0) -> np.ndarray:
+        """Boolean array of the grid cells that straddle a jump of the full model (see :data:`JUMP_RATIO`)."""
+        cache = self.__dict__.setdefault("_jumps", {})
+        if output not in cache:
+            V = self.log_values[output]
+            cells = np.zeros(tuple(n - 1 for n in V.shape), dtype=bool)
+            for a in range(3):
+                d = np.abs(np.diff(V, axis=a))
+                edge = d > max(JUMP_MIN_LOG, JUMP_RATIO * float(np.nanmedian(d)))
+                others = [b for b in range(3) if b != a]
+                for c1 in (0, 1):
+                    for c2 in (0, 1):
+                        sl = [slice(None)] * 3
+                        sl[others[0]] = slice(c1, V.shape[others[0]] - 1 + c1)
+                        sl[others[1]] = slice(c2, V.shape[others[1]] - 1 + c2)
+                        cells |= edge[tuple(sl)]
+            cache[output] = cells
+        return cache[output]
+
     def in_domain(self, peak_factor, longitudinal_factor, misalignment_m) -> np.ndarray:
         x = np.broadcast_arrays(peak_factor, longitudinal_factor, misalignment_m)
         ok = np.ones(x[0].shape, dtype=bool)
@@ -169,7 +198,8 @@ class Surrogate:
         return ok
 
     def interpolate(self, peak_factor, longitudinal_factor, misalignment_m, output: int = 0) -> np.ndarray:
-        """Multilinear interpolation in log space (inputs clipped to the grid) [K]."""
+        """Multilinear interpolation in log space (inputs clipped to the grid) [K]; a cell across a
+        jump (:meth:`jump_cells`) gives its smallest corner."""
         x = [np.log(np.asarray(v, dtype=float)) for v in np.broadcast_arrays(peak_factor, longitudinal_factor,
                                                                           misalignment_m)]
         shape = x[0].shape
@@ -182,13 +212,20 @@ class Surrogate:
             w.append((v - la[i]) / (la[i + 1] - la[i]))
         V = self.log_values[output]
         out = np.zeros(idx[0].size)
+        lo = np.full(idx[0].size, np.inf)
+        hi = np.full(idx[0].size, -np.inf)
         for c0 in (0, 1):
             w0 = w[0] if c0 else 1 - w[0]
             for c1 in (0, 1):
                 w1 = w[1] if c1 else 1 - w[1]
                 for c2 in (0, 1):
                     w2 = w[2] if c2 else 1 - w[2]
-                    out += w0 * w1 * w2 * V[idx[0] + c0, idx[1] + c1, idx[2] + c2]
+                    corner = V[idx[0] + c0, idx[1] + c1, idx[2] + c2]
+                    out += w0 * w1 * w2 * corner
+                    np.minimum(lo, corner, out=lo)
+                    np.maximum(hi, corner, out=hi)
+        jump = self.jump_cells(output)[idx[0], idx[1], idx[2]]
+        out[jump] = lo[jump]
         return np.exp(out).reshape(shape)
 
     def __call__(self, peak_factor, longitudinal_factor, misalignment_m, output: int = 0) -> np.ndarray:
@@ -268,19 +305,22 @@ def load_or_build(inp, axes=None, folder: Path | None = None, test_points: int =
         try:
             with np.load(path) as z:
                 if str(z["version"]) == MODEL_VERSION:
-                    err = float(z["error_pct"])
+                    err, over = float(z["error_pct"]), float(z["overstatement_pct"])
                     return Surrogate(base=base, axes=[z["a0"], z["a1"], z["a2"]], values=z["values"],
-                                     filled_points=int(z["filled"]), measured_error=err if err >= 0 else None)
+                                     filled_points=int(z["filled"]), measured_error=err if err >= 0 else None,
+                                     measured_overstatement=over if over >= 0 else None)
         except (OSError, KeyError, ValueError):
             pass  # a damaged cache file is rebuilt
     s = build(base, axes)
     if test_points > 0:
-        s.measured_error = measure_error(s, test_points, seed=0)["max_error_pct"]
+        e = measure_error(s, test_points, seed=0)
+        s.measured_error, s.measured_overstatement = e["max_error_pct"], e["max_overstatement_pct"]
     try:
         folder.mkdir(parents=True, exist_ok=True)
         tmp = path.with_suffix(f".{os.getpid()}.tmp.npz")
         np.savez(tmp, version=MODEL_VERSION, a0=s.axes[0], a1=s.axes[1], a2=s.axes[2], values=s.values,
-                 filled=s.filled_points, error_pct=-1.0 if s.measured_error is None else s.measured_error)
+                 filled=s.filled_points, error_pct=-1.0 if s.measured_error is None else s.measured_error,
+                 overstatement_pct=-1.0 if s.measured_overstatement is None else s.measured_overstatement)
         os.replace(tmp, path)
     except OSError:
         pass  # an unwritable cache folder only costs the rebuild next time
@@ -291,7 +331,8 @@ def measure_error(s: Surrogate, n: int = 300, seed: int = 0) -> dict:
     """Relative error of the stand-in against the full model on ``n`` random points of its domain.
 
     Returns ``{"points", "max_error_pct", "p95_error_pct", "mean_error_pct", "failed", "worst",
-    "max_error_below_80K_pct", "points_below_80K"}`` for the buckling rise (the output the
+    "max_error_below_80K_pct", "points_below_80K", "max_overstatement_pct", "share_within_2pct"}``
+    for the buckling rise (the output the
     probability uses); ``worst`` lists the five worst points ``(peak_factor, longitudinal_factor,
     misalignment_m, full_K, surrogate_K)``; the ``below_80K`` figures are over the points whose full
     buckling rise is below 80 K (the rises daily rail temperatures can reach).
@@ -303,12 +344,15 @@ def measure_error(s: Surrogate, n: int = 300, seed: int = 0) -> dict:
     full = np.array([full_model(s.base, *x)[0] for x in X])
     sur = s.interpolate(X[:, 0], X[:, 1], X[:, 2])
     ok = np.isfinite(full)
-    err = np.abs(sur[ok] - full[ok]) / full[ok] * 100.0
+    signed = (sur[ok] - full[ok]) / full[ok] * 100.0
+    err = np.abs(signed)
     order = np.argsort(-err)[:5]
     Xo, fo, so = X[ok], full[ok], sur[ok]
     low = fo < 80.0
     return {"points": int(ok.sum()), "failed": int((~ok).sum()), "max_error_pct": float(err.max()),
             "p95_error_pct": float(np.percentile(err, 95)), "mean_error_pct": float(err.mean()),
+            "max_overstatement_pct": float(max(0.0, signed.max())),
+            "share_within_2pct": float(np.mean(err <= 2.0)),
             "max_error_below_80K_pct": float(err[low].max()) if low.any() else None,
             "points_below_80K": int(low.sum()),
             "worst": [(float(Xo[i, 0]), float(Xo[i, 1]), float(Xo[i, 2]), float(fo[i]), float(so[i])) for i in order]}

@@ -47,7 +47,9 @@ def print_table(result, system: str) -> None:
     console.print(f"Network: {result.network_expected_buckles_per_year:.3g} expected buckles per year "
                   f"(± {result.network_standard_error:.2g}). Stand-in of the stability model: "
                   f"{result.surrogate_families} track famil{'y' if result.surrogate_families == 1 else 'ies'}"
-                  + ("" if err is None else f", largest error {err:.1f} % on its test points") + ".",
+                  + ("" if err is None else f", largest error {err:.1f} % on its test points (overstating the "
+                                            f"buckling rise by at most {result.surrogate_max_overstatement_pct:.1f} %)")
+                  + ".",
                   highlight=False)
     from trackplan.risk_report import COVERAGE
 
