@@ -81,3 +81,18 @@ def test_risk_terminal_table_and_bad_input(run_cli, small_grid, tmp_path):
     res = run_cli("risk", bad, "--samples", "200", "--json")
     assert res.exit_code == 2
     assert "[sections.COOL-2] risk.neutral_sd" in res.output and "has no unit" in res.output
+
+
+def test_register_neutral_and_its_stated_uncertainty_are_used(run_cli, small_grid, tmp_path):
+    # a measured neutral logged in the register, with its uncertainty, replaces the section file's
+    res = run_cli("register", "import", small_grid, "--by", "J. Okafor", "--db", tmp_path / "r.sqlite")
+    assert res.exit_code == 0, res.output
+    res = run_cli("register", "log", "HOT-1", "--kind", "measured", "--date", "2024-05-20", "--neutral", "30 degC",
+                  "--uncertainty", "1.5 K", "--method", "rail uplift", "--by", "A. Byrne", "--db", tmp_path / "r.sqlite")
+    assert res.exit_code == 0, res.output
+    res, j = run_cli("risk", small_grid, "--samples", "200", "--register", tmp_path / "r.sqlite", "--json",
+                     json_out=True)
+    assert res.exit_code == 0, res.output
+    hot = next(s for s in j["sections"] if s["id"] == "HOT-1")
+    assert hot["inputs"]["neutral_temperature"]["recorded_C"] == 30.0
+    assert hot["inputs"]["neutral_temperature"]["standard_deviation_K"] == 1.5

@@ -224,7 +224,7 @@ class RiskRunner:
         if o.uncertainty is not None:
             u = o.uncertainty
         else:
-            ov = risk.parse_overrides(dict(getattr(section, "risk", ()) or ()), f"{where} risk")
+            ov = dict(section.risk)  # validated SI values (trackplan.sections, trackplan.risk.parse_overrides)
             u = risk.uncertainty_for(section.neutral_basis, years_since(section, today), ov)
         inp = self.assessor.track_input(section)
         hot = risk.top_days(view.rail_max_C[day_mask], remap[inverse[day_mask]], len(seasons),
