@@ -27,9 +27,9 @@ def print_table(result, system: str) -> None:
 
     t = Table(title=f"Probability of buckling per season ({result.options.season}, "
                     f"{result.options.samples:,} samples, seed {result.options.seed})", title_justify="left")
-    for name, just in (("Section", "left"), ("P per season", "right"), ("± se", "right"), ("Neutral", "right"),
-                       ("sd", "right"), ("Buckling rise", "right"), ("If measured", "right"),
-                       ("If consol.", "right"), ("Do first", "left")):
+    for name, just in (("Section", "left"), ("P/season", "right"), ("± se", "right"), ("Neutral", "right"),
+                       ("sd", "right"), ("Buckling rise", "right"), ("Measured", "right"),
+                       ("Consol.", "right"), ("First", "left")):
         t.add_column(name, justify=just, no_wrap=True)
     for s in result.sections[:TABLE_ROWS]:
         action, gain = s.first_action
@@ -38,8 +38,11 @@ def print_table(result, system: str) -> None:
                   units.fmt(s.uncertainty.neutral_sd_K, "temperature_difference", system, 0),
                   units.fmt(s.buckling_rise_K, "temperature_difference", system, 0),
                   _p(s.measured.probability), "–" if s.consolidated is None else _p(s.consolidated.probability),
-                  "–" if gain <= 0 else f"{'measure' if action.startswith('measure') else 'consolidate'}")
+                  "–" if gain <= 0 else ("measure" if action.startswith("measure") else "consol."))
     console.print(t)
+    console.print("P/season: probability of at least one buckle per season; Measured / Consol.: the same if the "
+                  "neutral temperature were measured now / the ballast consolidated; First: the larger drop.",
+                  highlight=False)
     if len(result.sections) > TABLE_ROWS:
         console.print(f"{TABLE_ROWS} of {len(result.sections)} sections shown; every section with --json or --out.",
                       highlight=False)
