@@ -31,9 +31,9 @@ neutral_basis = "destressed"
 def small_grid(monkeypatch, tmp_path):
     from trackplan import risk_network, surrogate
 
-    monkeypatch.setattr(surrogate, "PEAK_AXIS", (0.3, 3.0, 2))
-    monkeypatch.setattr(surrogate, "LONGITUDINAL_AXIS", (0.35, 3.0, 2))
-    monkeypatch.setattr(surrogate, "MISALIGNMENT_AXIS_M", (0.0033, 0.1, 2))
+    monkeypatch.setattr(surrogate, "PEAK_AXIS", (0.25, 3.5, 2))
+    monkeypatch.setattr(surrogate, "LONGITUDINAL_AXIS", (0.2, 5.0, 2))
+    monkeypatch.setattr(surrogate, "MISALIGNMENT_AXIS_M", (0.003, 0.12, 2))
     monkeypatch.setattr(risk_network, "BUILD_TEST_POINTS", 1)
     monkeypatch.setenv(surrogate.ENV_CACHE, str(tmp_path / "cache"))
     rec = (folder("climate_samples") / "quennick_sands_daily.csv.gz").as_posix()

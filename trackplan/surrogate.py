@@ -46,14 +46,14 @@ from pathlib import Path
 import numpy as np
 
 #: Version of the stand-in's grid and of the model it stands in for; bump when either changes.
-MODEL_VERSION = "risk-surrogate-3"
+MODEL_VERSION = "risk-surrogate-4"
 #: Default grid: (low, high, points) of each input; factors and misalignment on log-spaced axes.
-#: With the default spreads (data/risk_inputs.csv) the grid spans about -4.9..+4.5 standard
-#: deviations of the peak resistance, -3.6..+3.8 of the longitudinal resistance and -4.5..+4.0
-#: of the misalignment (median 20 mm); beyond it the full model answers.
-PEAK_AXIS = (0.3, 3.0, 9)
-LONGITUDINAL_AXIS = (0.35, 3.0, 4)
-MISALIGNMENT_AXIS_M = (0.0033, 0.1, 11)
+#: With the default spreads (data/risk_inputs.csv) the grid spans about -5.6..+5.1 standard
+#: deviations of the peak resistance, -5.5..+5.5 of the longitudinal resistance and -4.7..+4.5
+#: of the misalignment (median 20 mm), so that the full model is rarely needed beyond it.
+PEAK_AXIS = (0.25, 3.5, 9)
+LONGITUDINAL_AXIS = (0.2, 5.0, 5)
+MISALIGNMENT_AXIS_M = (0.003, 0.12, 11)
 #: Rises above this are given as this value [K]: no rail temperature reaches a rise of 100 K above a
 #: neutral temperature in use (80 degC rail above a -20 degC neutral), and the analysis gives the rise
 #: of a track that does not buckle at all as its limit of 200 K, a jump no interpolation can follow.
