@@ -19,9 +19,9 @@ import numpy as np
 from trackplan import risk
 from trackplan.errors import InputError
 
-#: Seasons by name: months (first, last) in the northern hemisphere; the southern takes the
-#: months six later. ``year`` is the whole year.
-SEASONS = {"summer": (5, 9), "year": None}
+#: Seasons by name: ``summer`` at each station's hemisphere (:mod:`trackplan.seasons`), ``year``
+#: the whole year; or a month range ``M-M``.
+SEASONS = ("summer", "year")
 #: Random points on which each stand-in's error is measured when it is built for a run.
 BUILD_TEST_POINTS = 40
 
@@ -30,11 +30,12 @@ def season_months(season: str, latitude_deg: float, where: str = "--season"):
     """Months of a season name or ``M-M`` range at a latitude (southern summer: November-March)."""
     from trackplan.screening import parse_months
 
-    if season in SEASONS:
-        m = SEASONS[season]
-        if m is None or latitude_deg >= 0:
-            return m
-        return ((m[0] + 5) % 12 + 1, (m[1] + 5) % 12 + 1)
+    if season == "summer":
+        from trackplan import seasons
+
+        return seasons.season_months("summer", latitude_deg, where)
+    if season == "year":
+        return None
     try:
         return parse_months(season, where)
     except InputError:
