@@ -72,6 +72,7 @@ def test_risk_terminal_table_and_bad_input(run_cli, small_grid, tmp_path):
     assert res.exit_code == 0, res.output
     assert "Probability of buckling per season" in res.stdout and "Caution" in res.stdout
     assert "leaves out" in res.stdout
+    assert max(len(ln) for ln in res.stdout.splitlines()) <= 100 and "…" not in res.stdout  # piped: 100 columns
     res = run_cli("risk", small_grid, "--samples", "5")
     assert res.exit_code == 2 and "--samples" in res.output and "Traceback" not in res.output
     res = run_cli("risk", small_grid, "--season", "winterish")
