@@ -327,8 +327,10 @@ def load_or_build(inp, axes=None, folder: Path | None = None, test_points: int =
     return s
 
 
-def measure_error(s: Surrogate, n: int = 300, seed: int = 0) -> dict:
-    """Relative error of the stand-in against the full model on ``n`` random points of its domain.
+def measure_error(s: Surrogate, n: int = 300, seed: int = 0, spreads: tuple | None = None) -> dict:
+    """Relative error of the stand-in against the full model on ``n`` random points of its domain
+    (uniform in the logarithms), or drawn as the Monte Carlo draws them when ``spreads`` (standard
+    deviations of the logarithms of the three inputs) is given.
 
     Returns ``{"points", "max_error_pct", "p95_error_pct", "mean_error_pct", "failed", "worst",
     "max_error_below_80K_pct", "points_below_80K", "max_overstatement_pct", "share_within_2pct"}``
@@ -340,7 +342,11 @@ def measure_error(s: Surrogate, n: int = 300, seed: int = 0) -> dict:
     rng = np.random.default_rng(seed)
     lo = np.log([a[0] for a in s.axes])
     hi = np.log([a[-1] for a in s.axes])
-    X = np.exp(lo + (hi - lo) * rng.random((n, 3)))
+    if spreads is None:  # uniform in the logarithms over the grid's domain
+        X = np.exp(lo + (hi - lo) * rng.random((n, 3)))
+    else:  # as the Monte Carlo draws them: (sd of log peak, sd of log longitudinal, sd of log misalignment)
+        X = np.exp(np.array([0.0, 0.0, np.log(s.base.misalignment_m)])
+                   + np.asarray(spreads) * rng.standard_normal((n, 3)))
     full = np.array([full_model(s.base, *x)[0] for x in X])
     sur = s.interpolate(X[:, 0], X[:, 1], X[:, 2])
     ok = np.isfinite(full)
