@@ -99,7 +99,8 @@ def rows(result) -> list[dict]:
         out.append({
             "section": s.id, "name": s.name, "probability_per_season": s.probability,
             "standard_error": s.estimate.standard_error, "upper_95": s.estimate.upper_95,
-            "expected_buckles_per_year": s.probability,
+            # not "..._per_year": CSV columns with that ending are rounded to 2 decimals (trackplan.reports)
+            "expected_buckles_each_year": s.probability,
             "probability_neutral_measured": s.measured.probability,
             "probability_consolidated": None if s.consolidated is None else s.consolidated.probability,
             "first_action": action, "first_action_gain": gain,
@@ -132,6 +133,10 @@ def figure(result, max_sections: int = 30):
                 capsize=3, lw=1, label="± 2 standard errors")
     a1.set_xscale("log")
     a1.set_xlim(floor, 1.0)
+    from matplotlib.ticker import FuncFormatter, NullFormatter
+
+    a1.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))  # plain text (no math text)
+    a1.xaxis.set_minor_formatter(NullFormatter())
     none = p == 0
     if none.any():
         a1.plot(up[none], y[none], "<", color="0.4", label="none in the samples: 95 % bound 3/n")
