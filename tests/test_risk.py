@@ -12,7 +12,7 @@ import pytest
 from trackplan import risk
 from trackplan.errors import InputError
 
-SMALL_AXES = [np.geomspace(0.8, 1.25, 3), np.geomspace(0.8, 1.25, 2), np.geomspace(0.015, 0.03, 3)]
+SMALL_AXES = [np.geomspace(0.8, 1.25, 2), np.geomspace(0.8, 1.25, 2), np.geomspace(0.015, 0.03, 2)]
 
 
 def _normal_case(n, seed, muC=30.0, sC=4.0, T=45.0, N0=25.0, sN=3.0, sb=2.0):
@@ -133,12 +133,12 @@ def test_stand_in_matches_the_full_model_at_grid_points_and_between_them(small_s
 
     s = small_stand_in[0]
     # at a grid point the stand-in is the full model
-    full = surrogate.full_model(s.base, SMALL_AXES[0][1], SMALL_AXES[1][0], SMALL_AXES[2][2])[0]
-    assert s(SMALL_AXES[0][1], SMALL_AXES[1][0], SMALL_AXES[2][2]) == pytest.approx(full, rel=1e-9)
+    full = surrogate.full_model(s.base, SMALL_AXES[0][1], SMALL_AXES[1][0], SMALL_AXES[2][1])[0]
+    assert s(SMALL_AXES[0][1], SMALL_AXES[1][0], SMALL_AXES[2][1]) == pytest.approx(full, rel=1e-9)
     # between grid points, on a narrow domain, within 3 % of the full model (the wide grid's error over
     # 300 random points is measured in bench/bench_risk.py)
-    e = surrogate.measure_error(s, 8, seed=1)
-    assert e["points"] == 8 and e["max_error_pct"] < 3.0, e
+    e = surrogate.measure_error(s, 6, seed=1)
+    assert e["points"] == 6 and e["max_error_pct"] < 3.0, e
     # outside the grid the full model answers
     out = s(1.6, 1.0, 0.02)
     assert out == pytest.approx(surrogate.full_model(s.base, 1.6, 1.0, 0.02)[0], rel=0.01)
