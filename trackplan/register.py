@@ -832,9 +832,13 @@ def apply_to_section(section, history: SectionHistory):
             kind = "ballast-work" if e.method == "ballast-work" else "tamping"
             events.append(Event(e.date, kind, None, section.recovery_days if e.recovery_days is None else e.recovery_days))
     events.sort(key=lambda ev: ev.date)
+    risk = dict(section.risk)
+    if latest.uncertainty_K is not None and "neutral_sd" not in risk:
+        risk["neutral_sd"] = float(latest.uncertainty_K)  # the entry's stated uncertainty (trackplan.risk)
     return dataclasses.replace(
         section, neutral_temperature_C=float(first.neutral_temperature_C), neutral_date=first.date,
-        neutral_basis=latest.basis or "unknown", events=tuple(events), neutral_entry_id=latest.id)
+        neutral_basis=latest.basis or "unknown", events=tuple(events), neutral_entry_id=latest.id,
+        risk=tuple(sorted(risk.items())))
 
 
 def apply_register(sections, db) -> tuple[list, list[InputError]]:

@@ -113,7 +113,7 @@ _KNOWN_FIELDS = {
     "track_azimuth", "misalignment", "misalignment_length", "length", "shade",
     "neutral_temperature", "neutral_date", "neutral_basis", "drift_allowance", "gap_limit",
     "tension_stress_limit", "laying_tolerance", "return_period", "stability", "events",
-    "recovery_days", "rail_temperature_method", "loading", "columns", "tz", "climate_units_confirmed",
+    "recovery_days", "rail_temperature_method", "loading", "columns", "tz", "climate_units_confirmed", "risk",
 }
 _DEFAULTABLE = _KNOWN_FIELDS - {"name", "location", "chainage", "stability", "events", "neutral_date",
                                 "neutral_temperature", "neutral_basis"}
@@ -208,6 +208,7 @@ class Section:
     neutral_entry_id: int | None = None  # the register entry of the latest neutral (None: from the section file)
     climate_columns: tuple = ()  # column mapping of the climate record: tuple of trackplan.columns.ColumnMap
     climate_tz: str | None = None  # zone of the record's naive timestamps (field ``tz``)
+    risk: tuple = ()  # [sections.ID.risk]: (name, SI value) pairs of trackplan.risk.OVERRIDE_FIELDS
 
     @property
     def current_neutral_temperature_C(self) -> float:
@@ -547,6 +548,13 @@ def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
         if not val > 0:
             raise InputError("must be positive", f.w(f"stability.{k}"))
         overrides.append((k, val))
+    risk_raw = {**defaults.get("risk", {}), **table.get("risk", {})} if isinstance(
+        defaults.get("risk", {}), dict) and isinstance(table.get("risk", {}), dict) else None
+    if risk_raw is None:
+        raise InputError("expected a table of risk inputs", f.w("risk"))
+    from trackplan.risk import parse_overrides
+
+    risk_inputs = parse_overrides(risk_raw, f"{f.w('risk')}")
     events = _events(table.get("events"), where, today, int(rec))
     if nd is not None:
         for ev in events:
@@ -593,6 +601,7 @@ def _section(sid: str, table: dict, defaults: dict, file: Path, today: dt.date,
         events=events,
         climate_columns=_climate_columns(f),
         climate_tz=_climate_tz(f),
+        risk=tuple(sorted(risk_inputs.items())),
     )
 
 

@@ -23,6 +23,7 @@ COMMAND_MODULES = [
     "target",
     "check",
     "screen",
+    "risk",
     "register",
     "outlook",
     "demo",
