@@ -29,7 +29,7 @@ from pathlib import Path
 
 from trackplan import check as check_mod
 from trackplan import target as target_mod
-from trackplan.errors import InputError
+from trackplan.errors import InputError, TrackplanError
 from trackplan.sections import Section
 
 #: Track azimuths are rounded to this step for the daily rail extremes [deg].
@@ -304,7 +304,7 @@ class Assessor:
         return SectionAssessment(section, clim, stab, r, tgt, chk, practice)
 
     def assess_all(self, sections: list[Section], progress=None,
-                   engine=None) -> tuple[list[SectionAssessment], list[InputError]]:
+                   engine=None) -> tuple[list[SectionAssessment], list[TrackplanError]]:
         """Assess every section, grouped by climate record; problems are collected, not raised.
 
         With many sections and a Dask ``engine`` (:mod:`trackplan.engine`), the climate
@@ -317,7 +317,7 @@ class Assessor:
         out = map_record_groups(lambda idx: self._assess_indices(sections, idx),
                                 sections, progress, engine)
         results = [out[i] for i in range(len(sections)) if isinstance(out.get(i), SectionAssessment)]
-        problems = [out[i] for i in sorted(out) if isinstance(out[i], InputError)]
+        problems = [out[i] for i in sorted(out) if isinstance(out[i], TrackplanError)]
         return results, problems
 
     def _assess_indices(self, sections, indices) -> dict:
@@ -334,17 +334,17 @@ class Assessor:
 SECTION_FIELDS = {"lat": "latitude", "lon": "longitude", "azimuth": "track_azimuth"}
 
 
-def section_problem(section: Section, exc: BaseException) -> InputError:
+def section_problem(section: Section, exc: BaseException) -> TrackplanError:
     """A failure while assessing ``section`` as a problem of that section (file, section, field).
 
-    An :class:`InputError` that already names a place in a file is kept; one raised by a
-    computation module (naming a field, or nothing) is placed in the section; anything
-    unforeseen becomes an error of the section that says it is an internal fault.
+    An input or model error (:class:`TrackplanError`) that already names a place in a file is
+    kept; one raised by a computation module (naming a field, or nothing) is placed in the
+    section; anything unforeseen becomes an error of the section that says it is an internal fault.
     """
     from trackplan.errors import excerpt
 
     where = f"{section.file.name} [sections.{section.id}]"
-    if isinstance(exc, InputError):
+    if isinstance(exc, TrackplanError):
         if exc.where is None:
             return exc.relocated(where)
         if exc.field is not None and exc.where == exc.field:
@@ -422,7 +422,7 @@ def _solve_track(inp):
 
     try:
         return stability.analyse_stability(inp)
-    except InputError as exc:
+    except TrackplanError as exc:  # bad input or a model that cannot give a number
         return exc
     except Exception as exc:  # returned, so that one track cannot stop the pool
         from trackplan.errors import excerpt

@@ -29,7 +29,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
-from trackplan.errors import InputError, excerpt
+from trackplan.errors import InputError, UnitKindError, excerpt
 
 #: Quantity names a mapping may use -> canonical column (``time`` is the timestamp column).
 CANONICAL = {
@@ -298,11 +298,11 @@ def csv_plan(names: list[str], mapping, quantities: dict, where_header: str):
 
             try:
                 units.to_si(1.0, unit, q.kind)
-            except InputError as exc:
-                if " is not a " not in exc.bare_message:
-                    raise InputError(exc.bare_message, w) from None
+            except UnitKindError:
                 raise InputError(f"unit [{unit}] of {name} (column {excerpt(h)}) is not a {q.kind} unit; accepted: "
                                  + ", ".join(units.accepted_units(q.kind)), w) from None
+            except InputError as exc:
+                raise InputError(exc.bare_message, w) from None
         cand[h] = (q, unit, w, h in mapped or any(norm(h) == norm(m) for m in mapped))
     return names[hdr.time_index], cand, list(hdr.ignored)
 

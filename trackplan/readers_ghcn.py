@@ -137,7 +137,7 @@ def _ghcn_station_list(path: Path, sid: str, meta: dict, ctx: _Ctx) -> None:
     if not lst.is_file():
         if meta["latitude_deg"] is None:
             ctx.warn("no latitude/longitude: add '# latitude: ...' and '# longitude: ...' lines or put "
-                     "ghcnd-stations.txt beside the file")
+                     "ghcnd-stations.txt beside the file", code="no_coordinates")
         return
     with open(lst, encoding="utf-8", errors="replace") as fh:
         for ln, line in enumerate(fh, start=1):

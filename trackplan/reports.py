@@ -39,6 +39,7 @@ import time
 from pathlib import Path
 from typing import Callable, Iterable
 
+from trackplan import notices
 from trackplan.errors import InputError, excerpt
 
 #: Name of the manifest written last into an output folder.
@@ -568,7 +569,7 @@ def grouped_warnings(items) -> list[tuple[str, list[str], str]]:
     ``(station, section id, warning)`` triples, in first-seen order."""
     seen: dict[tuple[str, str], list[str]] = {}
     for station, sid, w in items:
-        if "no latitude/longitude" in w:
+        if notices.as_notice(w).code == "no_coordinates":
             continue  # a section that was assessed had its coordinates (from the section file)
         ids = seen.setdefault((station, w), [])
         if sid not in ids:

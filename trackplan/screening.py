@@ -118,7 +118,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from trackplan.check import DEFAULT_WATCH_FRACTION  # noqa: F401  (importable from here)
-from trackplan.errors import InputError
+from trackplan.errors import InputError, TrackplanError
 from trackplan.seasons import month_list, station_months, winter_warnings
 
 # The per-day core and the tables live apart; every name stays importable from here.
@@ -664,5 +664,5 @@ class Screener:
 
         out = map_record_groups(work, sections, progress, engine)
         results = [out[i] for i in range(len(sections)) if isinstance(out.get(i), SectionScreen)]
-        problems = [out[i] for i in sorted(out) if isinstance(out[i], InputError)]
+        problems = [out[i] for i in sorted(out) if isinstance(out[i], TrackplanError)]
         return ScreenResult(self.options, results, problems)

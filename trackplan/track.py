@@ -20,7 +20,7 @@ from dataclasses import dataclass, fields
 from functools import lru_cache
 from importlib import resources
 
-from trackplan.errors import InputError
+from trackplan.errors import InputError, ModelError
 
 # ----------------------------------------------------------------------------------------------
 # Constants of the method
@@ -48,11 +48,12 @@ HALF_LENGTH_M = 40.0
 MIN_RADIUS_M = 100.0
 
 
-class StabilityError(InputError):
+class StabilityError(ModelError):
     """The equilibrium curve could not be traced for these parameters.
 
-    Subclass of :class:`InputError` so that the command line reports it as a message (exit
-    code 2) and never as a traceback; the message says where the path following stopped.
+    A model error, not bad input: the command line reports it as a message (exit code 2)
+    and never as a traceback, a network run as a problem of the section; the message says
+    where the path following stopped.
     """
 
 

@@ -130,7 +130,7 @@ def railtemp_cmd(
                                       years=None if typical else meta.get("years"), allow_short=allow_short)
     warnings = list(meta.get("warnings") or []) + design.warnings
     if lat is not None and lon is not None:  # the record's lack of coordinates is made good by --lat/--lon
-        warnings = [w for w in warnings if "no latitude/longitude" not in w]
+        warnings = [w for w in warnings if notices.as_notice(w).code != "no_coordinates"]
     station = meta.get("station") or Path(file).name
 
     if out is not None:
