@@ -286,15 +286,19 @@ class Assessor:
         r = self.longitudinal_resistance(section)
         st = section.steel
         A = section.profile.area_m2
+        cold = dict(E_Pa=st.E_Pa, area_m2=A, alpha_per_K=st.alpha_per_K, resistance_N_per_m=r,
+                    gap_limit_m=section.gap_limit_m, tension_stress_limit_Pa=section.tension_stress_limit_Pa)
         tgt = target_mod.recommend_neutral(
-            clim.design_max_C, clim.design_min_C, float(stab.allowable_rise_K), section.drift_allowance_K,
-            st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m, section.tension_stress_limit_Pa,
-            section.laying_tolerance_K, priority=self.priority,
+            design_max_C=clim.design_max_C, design_min_C=clim.design_min_C,
+            allowable_rise_K=float(stab.allowable_rise_K), drift_allowance_K=section.drift_allowance_K, **cold,
+            laying_tolerance_K=section.laying_tolerance_K, priority=self.priority,
         )
         chk = check_mod.check_section(
-            section.latest_neutral_temperature_C, section.drift_allowance_K, clim.design_max_C, clim.design_min_C,
-            float(stab.allowable_rise_K), st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m,
-            section.tension_stress_limit_Pa, tgt.target_neutral_temperature_C, clim.hot_month, section.neutral_basis,
+            latest_neutral_C=section.latest_neutral_temperature_C, drift_allowance_K=section.drift_allowance_K,
+            design_max_C=clim.design_max_C, design_min_C=clim.design_min_C,
+            allowable_rise_K=float(stab.allowable_rise_K), **cold,
+            target_C=tgt.target_neutral_temperature_C, destress_before=clim.hot_month,
+            neutral_basis=section.neutral_basis,
         )
         annual = clim.design.annual
         rec_max = float(annual["max_rail_temperature_C"].max()) if len(annual) else None

@@ -502,7 +502,7 @@ def force_envelope_figure(a, system: str = "si"):
     p_allow = thermal.thermal_force(c.allowable_rise_K, E, A, al)
     ax.axhline(conv_F(p_allow)[0], color="tab:red", lw=1,
                label=f"allowable compression (allowable rise {units.fmt(c.allowable_rise_K, 'temperature_difference', system)})")
-    g_force = -np.sqrt(c.gap_limit_m * E * A * a.longitudinal_resistance_N_per_m)
+    g_force = -thermal.gap_force_N(c.gap_limit_m, E, A, a.longitudinal_resistance_N_per_m)
     ax.axhline(conv_F(g_force)[0], color="tab:purple", lw=1,
                label=f"tension at the {units.fmt(c.gap_limit_m, 'short_length', system, 0 if system == 'si' else 1)} break-gap limit")
     for k, tv in enumerate((c.design_min_rail_temperature_C, c.design_max_rail_temperature_C)):

@@ -616,11 +616,12 @@ class Screener:
         st, A = section.steel, section.profile.area_m2
         r = self.resistance(section)
         heat_neutral = neutral - section.drift_allowance_K
-        days = screen_days(view.rail_max_C, view.rail_min_C, heat_neutral, neutral, allowable, critical,
-                           st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m, section.tension_stress_limit_Pa,
-                           o.watch_fraction)
-        cold_limit = cold_limit_rise_K(st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m,
-                                       section.tension_stress_limit_Pa)
+        cold = dict(E_Pa=st.E_Pa, area_m2=A, alpha_per_K=st.alpha_per_K, resistance_N_per_m=r,
+                    gap_limit_m=section.gap_limit_m, tension_stress_limit_Pa=section.tension_stress_limit_Pa)
+        days = screen_days(view.rail_max_C, view.rail_min_C, heat_neutral_C=heat_neutral, cold_neutral_C=neutral,
+                           allowable_rise_K=allowable, critical_rise_K=critical, **cold,
+                           watch_fraction=o.watch_fraction)
+        cold_limit = cold_limit_rise_K(**cold)
         summary = summarise_days(section.id, section.name, view.dates, view.years, view.season_days, days,
                                  view.rail_max_C, view.rail_min_C, heat_neutral, neutral, allowable, cold_limit,
                                  view.typical_year, view.groups)

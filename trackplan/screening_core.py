@@ -151,9 +151,10 @@ def cold_limit_rise_K(E_Pa: float, area_m2: float, alpha_per_K: float, resistanc
     Stress: ``E alpha |dT| <= sigma_lim``. Gap: ``E A (alpha dT)**2 / r <= g_lim``,
     so ``|dT| <= sqrt(g_lim r / (E A)) / alpha``. The limit is minus the smaller.
     """
-    by_stress = tension_stress_limit_Pa / (E_Pa * alpha_per_K)
-    by_gap = math.sqrt(gap_limit_m * resistance_N_per_m / (E_Pa * area_m2)) / alpha_per_K
-    return -min(by_stress, by_gap)
+    cold = thermal.ColdSide(E_Pa=E_Pa, area_m2=area_m2, alpha_per_K=alpha_per_K,
+                            resistance_N_per_m=resistance_N_per_m, gap_limit_m=gap_limit_m,
+                            tension_stress_limit_Pa=tension_stress_limit_Pa)
+    return -cold.limit_drop_K()
 
 
 @dataclass(frozen=True)
