@@ -158,6 +158,9 @@ class RailTemperatureMethod:
         Published source of the method.
     run : callable
         ``run(df, meta, profile, site, params, prepared) -> (daily DataFrame, warnings)``.
+    hourly : callable or None
+        ``hourly(df, meta, profile, site, params=..., prepared=...)``: the hourly rail
+        temperature series, for a method that computes one (None otherwise).
     """
 
     name: str
@@ -165,6 +168,7 @@ class RailTemperatureMethod:
     time_steps: tuple
     source: str
     run: Callable = field(repr=False)
+    hourly: Callable | None = field(default=None, repr=False)
 
 
 METHODS: dict[str, RailTemperatureMethod] = {
@@ -174,6 +178,7 @@ METHODS: dict[str, RailTemperatureMethod] = {
         ("hourly",),
         "lumped balance, docs/methods/rail-temperature.md; Swinbank (1963); McAdams (1954); pvlib (solar position, Erbs, Ineichen)",
         _heat_balance_daily,
+        rail_temperature_hourly,
     ),
     "daily-extremes": RailTemperatureMethod(
         "daily-extremes",

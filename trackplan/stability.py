@@ -146,6 +146,7 @@ from typing import Callable
 
 import numpy as np
 
+from trackplan import names
 from trackplan.errors import InputError
 from trackplan.track import (  # noqa: F401  (re-exported: the analysis's public names)
     DEFAULT_MISALIGNMENT_LENGTH_M, DEFAULT_MISALIGNMENT_M, DISPLACEMENT_LIMIT_M, ELEMENT_LENGTH_M, HALF_LENGTH_M,
@@ -279,7 +280,7 @@ CRITERIA: dict[str, Callable] = {
     "lower-critical": allowable_lower_critical,
     "upper-quarter": allowable_upper_quarter,
 }
-DEFAULT_CRITERION = "practice-calibrated"
+DEFAULT_CRITERION = names.DEFAULT_CRITERION
 
 
 # ----------------------------------------------------------------------------------------------

@@ -39,7 +39,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from trackplan import thermal, units
+from trackplan import names, thermal, units
 from trackplan.errors import InputError
 
 #: Default position of the target in the feasible window (0 cold end, 1 hot end).
@@ -100,7 +100,7 @@ def heat_floor(design_max_C: float, allowable_rise_K: float, drift_allowance_K: 
 
 
 #: What an empty window gives way to: the first gets its constraint kept.
-PRIORITIES = ("heat", "cold")
+PRIORITIES = names.PRIORITIES
 
 
 def stress_ceiling(design_min_C: float, tension_stress_limit_Pa: float, E_Pa: float, alpha_per_K: float) -> float:
