@@ -21,3 +21,17 @@ def test_help_lists_come_from_the_registries(run_cli):
     out = run_cli("railtemp", "--help").output
     for name in names.method_choices():
         assert name in out
+
+
+def test_limits_come_from_the_one_range_table():
+    from trackplan import destressing, ranges, register, screening, track, weather
+
+    assert destressing.TARGET_RANGE_C == ranges.bounds("target") == screening.NEUTRAL_RANGE_C
+    assert destressing.CURRENT_NEUTRAL_RANGE_C == register.MEASURED_RANGE_C == ranges.bounds("current_neutral")
+    assert register.SET_RANGE_C == ranges.bounds("neutral_temperature")
+    assert screening.WARMING_LIMIT_K == ranges.bounds("warming")[1]
+    assert weather.YEAR_MIN_COVERAGE == extremes.YEAR_MIN_COVERAGE == screening.YEAR_MIN_COVERAGE
+    assert weather.MONTH_MIN_COVERAGE == extremes.MONTH_MIN_COVERAGE == ranges.MONTH_MIN_COVERAGE
+    assert track.MIN_RADIUS_M == ranges.MODEL_LIMITS["radius"].lo
+    # the model accepts every misalignment the input range lets through
+    assert ranges.bounds("misalignment")[1] <= ranges.MODEL_LIMITS["misalignment"].hi

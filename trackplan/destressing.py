@@ -56,7 +56,7 @@ from importlib import resources
 
 import numpy as np
 
-from trackplan import thermal, units
+from trackplan import ranges, thermal, units
 from trackplan.errors import InputError
 
 # The physics of the plan lives apart; every name stays importable from here.
@@ -72,11 +72,11 @@ from trackplan.destressing_physics import (  # noqa: F401
 #: Targets outside this range are refused [degC]: no railway sets the neutral
 #: temperature of CWR outside it, and a value outside it is almost always a
 #: unit slip (a degF figure read as degC, or a rail temperature typed as target).
-TARGET_RANGE_C = (-10.0, 60.0)
+TARGET_RANGE_C = ranges.bounds("target_neutral_temperature")
 
 #: Plausible range of a measured current neutral temperature [degC] (wider than
 #: the target range: a badly set string can be well outside the design range).
-CURRENT_NEUTRAL_RANGE_C = (-30.0, 70.0)
+CURRENT_NEUTRAL_RANGE_C = ranges.bounds("measured_neutral_temperature")
 
 #: Plausible range of a measured rail temperature [degC].
 RAIL_TEMPERATURE_RANGE_C = (-50.0, 90.0)

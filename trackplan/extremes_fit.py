@@ -15,6 +15,7 @@ from typing import Callable
 
 import numpy as np
 
+from trackplan import ranges
 from trackplan.errors import InputError
 
 
@@ -34,10 +35,10 @@ EXTRAPOLATION_FACTOR = 4.0
 #: mid-latitude stations have Gumbel scales of about 1-2.5 K (from memory).
 ALLOWANCE_SCALE_K = 2.0
 #: A year is complete enough with at least this share of its days ...
-YEAR_MIN_COVERAGE = 0.9
+YEAR_MIN_COVERAGE = ranges.YEAR_MIN_COVERAGE
 #: ... and at least this share of the days of every month (a missing July
 #: would hide the year's maximum).
-MONTH_MIN_COVERAGE = 0.7
+MONTH_MIN_COVERAGE = ranges.MONTH_MIN_COVERAGE
 
 _EULER_GAMMA = 0.5772156649015329
 

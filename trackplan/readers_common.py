@@ -18,7 +18,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from trackplan import notices, units
+from trackplan import notices, ranges, units
 from trackplan.errors import InputError, excerpt
 
 
@@ -29,9 +29,9 @@ TYPICAL_YEAR = 1990
 MAX_INTERPOLATED_STEPS = 2
 
 #: A calendar year is complete enough when this share of its values is present ...
-YEAR_MIN_COVERAGE = 0.90
+YEAR_MIN_COVERAGE = ranges.YEAR_MIN_COVERAGE
 #: ... and every month has at least this share.
-MONTH_MIN_COVERAGE = 0.70
+MONTH_MIN_COVERAGE = ranges.MONTH_MIN_COVERAGE
 
 HOURLY_COLUMNS = (
     "air_temperature_C",

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from trackplan import thermal
+from trackplan import ranges, thermal
 from trackplan.check import DEFAULT_WATCH_FRACTION
 from trackplan.errors import InputError
 
@@ -28,10 +28,10 @@ FLAG_NAMES = LEVELS + (COLD_LEVEL,)
 #: Fewest complete years for a trend.
 MIN_TREND_YEARS = 5
 #: A year (season) is complete when this fraction of its days has data.
-YEAR_MIN_COVERAGE = 0.9
+YEAR_MIN_COVERAGE = ranges.YEAR_MIN_COVERAGE
 #: Bounds of the what-if options.
-WARMING_LIMIT_K = 10.0
-NEUTRAL_RANGE_C = (-10.0, 60.0)
+WARMING_LIMIT_K = ranges.bounds("warming")[1]
+NEUTRAL_RANGE_C = ranges.bounds("neutral_override")
 
 _EPOCH = np.datetime64("1970-01-01", "D")
 
