@@ -173,7 +173,7 @@ def parse_date(text: str, where: str) -> dt.date:
         raise InputError(f"cannot read {text!r} as a date; write YYYY-MM-DD (e.g. 2019-06-14)", where) from None
 
 
-def parse_months(text: str, where: str = "--months") -> tuple[int, int]:
+def parse_months(text: str, where: str | None = None) -> tuple[int, int]:
     """A month range ``M1-M2`` (1-12, inclusive, may wrap: ``11-2``) or one month ``M``."""
     parts = str(text).strip().split("-")
     try:
@@ -219,9 +219,9 @@ class ScreenOptions:
         from trackplan.seasons import SEASON_MONTHS
 
         if self.season is not None and self.season not in SEASON_MONTHS:
-            raise InputError(f"unknown season {self.season!r}; accepted: {', '.join(SEASON_MONTHS)}", "--season")
+            raise InputError(f"unknown season {self.season!r}; accepted: {', '.join(SEASON_MONTHS)}", field="season")
         if self.season is not None and self.months is not None:
-            raise InputError("give --season or --months, not both", "--season/--months")
+            raise InputError("give a season or a month range, not both", field="season/months")
         if self.start is not None and self.end is not None and self.start > self.end:
             raise InputError(f"the first day {self.start.isoformat()} is after the last day {self.end.isoformat()}",
                              field="from/to")
@@ -500,7 +500,7 @@ class Screener:
                 raise InputError(
                     f"nothing to screen: the climate record covers {first.isoformat()} to {last.isoformat()}"
                     + ("" if months is None else f", months {months[0]}-{months[1]}")
-                    + "; widen --from/--to or --months", "--from/--to")
+                    + "; widen the dates screened or the months", field="from/to")
             sy = season_year(y[sel], m[sel], months)
             groups = np.unique(sy, return_inverse=True)
             self._calendars[ckey] = (idx, sel, dates_all[sel], (dates_all[sel] - _EPOCH).astype(np.int64), sy,

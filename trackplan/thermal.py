@@ -70,12 +70,13 @@ STEEL_PRESETS: dict[str, Steel] = {
 }
 
 
-def steel_preset(name: str, where: str = "--steel") -> Steel:
-    """Look up a steel preset by name; unknown names list the valid ones."""
+def steel_preset(name: str, where: str | None = None) -> Steel:
+    """Look up a steel preset by name; unknown names list the valid ones (field ``steel``)."""
     try:
         return STEEL_PRESETS[name]
     except KeyError:
-        raise InputError(f"unknown steel preset {name!r}; accepted: {', '.join(STEEL_PRESETS)}", where) from None
+        raise InputError(f"unknown steel preset {name!r}; accepted: {', '.join(STEEL_PRESETS)}", where,
+                         field="steel") from None
 
 
 def default_steel(north_american: bool) -> Steel:
@@ -148,7 +149,7 @@ def free_expansion(length_m, rise_K, alpha_per_K: float):
 def _check_resistance(r):
     r = np.asarray(r, dtype=float)
     if np.any(~(r > 0)):
-        raise InputError("longitudinal resistance must be positive (e.g. '8 kN/m' per rail)", "--resistance")
+        raise InputError("longitudinal resistance must be positive (e.g. '8 kN/m' per rail)", field="resistance")
     return r
 
 

@@ -513,7 +513,7 @@ def _example(kind: str) -> str:
 def display_unit(kind: str, system: str) -> str:
     """Unit (pint spelling) in which ``kind`` is shown in ``system``."""
     if system not in DISPLAY:
-        raise InputError(f"unknown unit system {system!r}; accepted: si, us", "--units")
+        raise InputError(f"unknown unit system {system!r}; accepted: {', '.join(UNIT_SYSTEMS)}", field="units")
     return DISPLAY[system][kind]
 
 

@@ -31,7 +31,7 @@ def build_options(date_from, date_to, months, warming, neutral_override, watch_f
 
     start = screening.parse_date(date_from, "--from") if date_from is not None else None
     end = screening.parse_date(date_to, "--to") if date_to is not None else None
-    mo = screening.parse_months(months) if months is not None else None
+    mo = screening.parse_months(months, "--months") if months is not None else None
     warm, _ = parse_option(warming, "temperature_difference", "--warming", system, required=False)
     tn, _ = parse_option(neutral_override, "temperature", "--neutral-override", system, required=False)
     return screening.ScreenOptions(start=start, end=end, months=mo, warming_K=warm or 0.0,
