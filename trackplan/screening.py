@@ -500,7 +500,7 @@ class Screener:
                 raise InputError(
                     f"nothing to screen: the climate record covers {first.isoformat()} to {last.isoformat()}"
                     + ("" if months is None else f", months {months[0]}-{months[1]}")
-                    + "; widen the dates screened or the months", field="from/to")
+                    + "; widen the dates screened (from, to) or the months", f"{where} climate")
             sy = season_year(y[sel], m[sel], months)
             groups = np.unique(sy, return_inverse=True)
             self._calendars[ckey] = (idx, sel, dates_all[sel], (dates_all[sel] - _EPOCH).astype(np.int64), sy,
