@@ -80,3 +80,14 @@ def test_warnings_are_told_apart_by_code_not_by_words():
     assert kept == [("S", ["A", "B"], other)]
     # an older plain-text warning still gets its code from its words
     assert notices.as_notice("r.csv: no latitude/longitude: add lines").code == "no_coordinates"
+
+
+def test_warnings_merged_in_one_place():
+    from trackplan import notices
+
+    record = [notices.Notice("r.csv: 2 gap(s) of missing hours", "gaps", "r.csv"), "r.csv: no latitude/longitude: x"]
+    method = ["no wind in the record; 2 m/s at 10 m assumed throughout"]
+    merged = notices.merge(record, None, method, record[:1])
+    assert [n.code for n in merged] == ["gaps", "no_coordinates", "assumed_input"]
+    assert all(isinstance(n, notices.Notice) for n in merged)
+    assert [n.code for n in notices.merge(record, method, drop=("no_coordinates",))] == ["gaps", "assumed_input"]

@@ -28,6 +28,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from trackplan import check as check_mod
+from trackplan import notices
 from trackplan import target as target_mod
 from trackplan.errors import InputError, TrackplanError
 from trackplan.sections import Section
@@ -213,8 +214,7 @@ class Assessor:
                                               years=meta.get("years"), allow_short=self.allow_short)
             self._design[dkey] = (design, _hot_month(daily))
         design, month = self._design[dkey]
-        warnings = list(dict.fromkeys(list(meta.get("warnings", [])) + list(daily.attrs.get("warnings", []))
-                                      + list(design.warnings)))
+        warnings = notices.merge(meta.get("warnings"), daily.attrs.get("warnings"), design.warnings)
         return ClimateResult(design, daily.attrs.get("method", section.rail_temperature_method),
                              str(meta.get("station", section.climate_path.stem)), month, warnings,
                              meta.get("tz"), meta.get("time_step"))

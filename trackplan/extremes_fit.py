@@ -17,6 +17,7 @@ import numpy as np
 
 from trackplan import ranges
 from trackplan.errors import InputError
+from trackplan.notices import Notice
 
 
 
@@ -122,12 +123,12 @@ def annual_extremes(daily, typical_year: bool = False, years=None):
             continue
         y = y0 + k
         if allowed is not None and y not in allowed:
-            warnings.append(f"year {y} left out: the record is not complete enough in that year")
+            warnings.append(Notice(f"year {y} left out: the record is not complete enough in that year", 'incomplete_years'))
             continue
         if cover[k] < YEAR_MIN_COVERAGE or mcover[k] < MONTH_MIN_COVERAGE:
             warnings.append(
-                f"year {y} left out: {cover[k]:.0%} of its days have data (need {YEAR_MIN_COVERAGE:.0%}, "
-                f"and {MONTH_MIN_COVERAGE:.0%} of every month; poorest month {mcover[k]:.0%})"
+                Notice(f"year {y} left out: {cover[k]:.0%} of its days have data (need {YEAR_MIN_COVERAGE:.0%}, "
+                f"and {MONTH_MIN_COVERAGE:.0%} of every month; poorest month {mcover[k]:.0%})", 'incomplete_years')
             )
             continue
         rows.append([y, vals["rail_max_C"][k], vals["rail_min_C"][k], vals["air_max_C"][k],

@@ -115,6 +115,19 @@ def as_notice(w) -> Notice:
     return Notice(text, classify(text), where)
 
 
+def merge(*groups, drop: tuple = ()) -> list[Notice]:
+    """The warnings of several sources (the record, the rail temperature method, the design values,
+    the season) as one list: every one a :class:`Notice`, in order, each once, the codes in
+    ``drop`` left out (a lack the caller has made good). The one place warnings are merged."""
+    out: list[Notice] = []
+    for group in groups:
+        for w in group or ():
+            n = as_notice(w)
+            if n.code not in drop:
+                out.append(n)
+    return list(dict.fromkeys(out))
+
+
 def to_json(warnings) -> list[dict]:
     """JSON objects ``{"code", "message", "where"}`` of a list of warnings, duplicates once."""
     return [as_notice(w).as_json() for w in dict.fromkeys(warnings)]

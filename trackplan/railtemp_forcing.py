@@ -16,6 +16,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from trackplan.errors import InputError
+from trackplan.notices import Notice
 from trackplan.railtemp_physics import DEFAULT_PARAMETERS, HeatBalanceParameters, RailSite, _Sky, _sky
 
 
@@ -218,8 +219,8 @@ def prepare_solar(df, meta: dict, site: RailSite, params: HeatBalanceParameters 
     restart |= bad
     if bad.any():
         warnings.append(
-            f"{int(bad.sum())} step(s) longer than {params.max_step_s / 3600:g} h or out of order; "
-            "the rail temperature restarts at the steady state after each"
+            Notice(f"{int(bad.sum())} step(s) longer than {params.max_step_s / 3600:g} h or out of order; "
+            "the rail temperature restarts at the steady state after each", 'record_note')
         )
     step = np.where(bad, typical, step)
     interval = _interval_convention(meta)
@@ -239,11 +240,11 @@ def prepare_solar(df, meta: dict, site: RailSite, params: HeatBalanceParameters 
         if miss.any():
             wind[miss] = params.default_wind_10m_m_s
             warnings.append(
-                f"{int(miss.sum())} missing wind value(s) taken as {params.default_wind_10m_m_s:g} m/s at 10 m"
+                Notice(f"{int(miss.sum())} missing wind value(s) taken as {params.default_wind_10m_m_s:g} m/s at 10 m", 'gaps')
             )
     else:
         wind = np.full(n, params.default_wind_10m_m_s)
-        warnings.append(f"no wind in the record; {params.default_wind_10m_m_s:g} m/s at 10 m assumed throughout")
+        warnings.append(Notice(f"no wind in the record; {params.default_wind_10m_m_s:g} m/s at 10 m assumed throughout", 'assumed_input'))
 
     if "ghi_W_m2" in cols:
         ghi = np.clip(df["ghi_W_m2"].to_numpy(float), 0.0, None)
@@ -262,11 +263,11 @@ def prepare_solar(df, meta: dict, site: RailSite, params: HeatBalanceParameters 
             dhi = np.nan_to_num(np.asarray(split["dhi"], dtype=float), nan=0.0)
             dni = np.where(np.isfinite(ghi), dni, np.nan)
             dhi = np.where(np.isfinite(ghi), dhi, np.nan)
-            warnings.append("only global irradiance in the record; beam and diffuse split by Erbs et al. (1982)")
+            warnings.append(Notice("only global irradiance in the record; beam and diffuse split by Erbs et al. (1982)", 'record_note'))
     else:
         ghi, dni, dhi = _clear_sky(times_mid, site, elev, az)
-        warnings.append("no irradiance in the record; clear-sky irradiance (Ineichen) assumed every hour "
-                        "(conservative for the maximum)")
+        warnings.append(Notice("no irradiance in the record; clear-sky irradiance (Ineichen) assumed every hour "
+                        "(conservative for the maximum)", 'assumed_input'))
 
     wind_h = meta.get("wind_height_m")
     if wind_h is not None and math.isfinite(float(wind_h)) and float(wind_h) > 0 \
@@ -274,8 +275,8 @@ def prepare_solar(df, meta: dict, site: RailSite, params: HeatBalanceParameters 
         # bring the measured wind to the 10 m reference with the same log profile
         z0 = params.roughness_length_m
         wind = wind * math.log(params.anemometer_height_m / z0) / math.log(float(wind_h) / z0)
-        warnings.append(f"wind measured at {float(wind_h):g} m brought to {params.anemometer_height_m:g} m "
-                        "by a logarithmic profile")
+        warnings.append(Notice(f"wind measured at {float(wind_h):g} m brought to {params.anemometer_height_m:g} m "
+                        "by a logarithmic profile", 'record_note'))
     dates, starts = _local_dates(times_mid)
     return PreparedRecord(
         times=idx,

@@ -18,6 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from trackplan.errors import InputError
+from trackplan.notices import Notice
 from trackplan.rails import RailProfile
 from trackplan.railtemp_forcing import PreparedRecord, _clear_sky, _prepared_for, solar_position
 from trackplan.railtemp_physics import (
@@ -154,7 +155,7 @@ def _heat_balance_daily(df, meta, profile, site, params, prepared):
     daily, n_short = _daily_from_hourly(prep, rail)
     warnings = list(prep.warnings)
     if n_short:
-        warnings.append(f"{n_short} day(s) with less than 75% of their hours left out of the daily extremes")
+        warnings.append(Notice(f"{n_short} day(s) with less than 75% of their hours left out of the daily extremes", 'incomplete_years'))
     return daily, warnings
 
 
@@ -288,10 +289,10 @@ def daily_extremes_path(daily, meta: dict, profile: RailProfile, site: RailSite,
             miss = ~np.isfinite(v)
             factor = np.where(miss, 1.0, fn(np.where(miss, 0.0, v)))
             if miss.any():
-                warnings.append(f"{int(miss.sum())} day(s) without a {label} value taken as clear sky")
+                warnings.append(Notice(f"{int(miss.sum())} day(s) without a {label} value taken as clear sky", 'assumed_input'))
             break
     else:
-        warnings.append("daily record without sunshine or cloud: clear sky assumed every day (conservative)")
+        warnings.append(Notice("daily record without sunshine or cloud: clear sky assumed every day (conservative)", 'assumed_input'))
     tmax = daily["tmax_C"].to_numpy(float)
     tmin = daily["tmin_C"].to_numpy(float)
     geometry = rail_geometry(profile, params)

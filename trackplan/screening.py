@@ -118,6 +118,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from trackplan.check import DEFAULT_WATCH_FRACTION  # noqa: F401  (importable from here)
+from trackplan import notices
 from trackplan.errors import InputError, TrackplanError
 from trackplan.seasons import month_list, station_months, winter_warnings
 
@@ -527,7 +528,7 @@ class Screener:
                 record_last=last,
                 typical_year=bool(meta.get("typical_year")),
                 station=station,
-                warnings=tuple(meta.get("warnings", [])) + tuple(daily.attrs.get("warnings", [])) + season_warn,
+                warnings=tuple(notices.merge(meta.get("warnings"), daily.attrs.get("warnings"), season_warn)),
                 inputs={"tz": meta.get("tz"), "time_step": meta.get("time_step")},
                 groups=groups,
                 season_days=season_days,

@@ -128,9 +128,9 @@ def railtemp_cmd(
     phase(f"annual extremes and {distribution} fit")
     design = extremes.design_extremes(daily, return_period, distribution, typical_year=typical,
                                       years=None if typical else meta.get("years"), allow_short=allow_short)
-    warnings = list(meta.get("warnings") or []) + design.warnings
-    if lat is not None and lon is not None:  # the record's lack of coordinates is made good by --lat/--lon
-        warnings = [w for w in warnings if notices.as_notice(w).code != "no_coordinates"]
+    # the record's lack of coordinates is made good by --lat/--lon
+    made_good = ("no_coordinates",) if lat is not None and lon is not None else ()
+    warnings = notices.merge(meta.get("warnings"), daily.attrs.get("warnings"), design.warnings, drop=made_good)
     station = meta.get("station") or Path(file).name
 
     if out is not None:
