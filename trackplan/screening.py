@@ -328,6 +328,7 @@ class SectionScreen:
     warnings: list = field(default_factory=list)
     climate_path: object = None  # pathlib.Path of the record
     inputs: dict = field(default_factory=dict)  # how the record was read: tz, time_step
+    replay_note: str | None = None  # the note (also in notes) that days before the neutral date were replayed
 
     @property
     def complete_years(self) -> int:
@@ -573,6 +574,7 @@ class Screener:
                                  f"({view.record_last.isoformat()}){extra}", f"{where} events")
         day = view.day
         notes = []
+        replay_note = None
         if o.neutral_override_C is not None:
             neutral = np.full(day.shape, float(o.neutral_override_C))
             notes.append(f"what-if: neutral temperature {o.neutral_override_C:.1f} degC on every day "
@@ -585,9 +587,10 @@ class Screener:
             first_change = min([c[0] for c in changes], default=None)
             if nd is not None and view.dates[0] < np.datetime64(nd, "D") and (
                     first_change is None or view.day[0] < first_change):
-                notes.append(f"days before the neutral date {nd.isoformat()} are screened with the recorded "
-                             f"neutral temperature {section.neutral_temperature_C:.1f} degC (a replay of the "
-                             "climate on the section as recorded)")
+                replay_note = (f"days before the neutral date {nd.isoformat()} are screened with the recorded "
+                               f"neutral temperature {section.neutral_temperature_C:.1f} degC (a replay of the "
+                               "climate on the section as recorded)")
+                notes.append(replay_note)
         if o.warming_K:
             notes.append(f"what-if: rail temperatures shifted by {o.warming_K:+.1f} K on every day")
 
@@ -643,6 +646,7 @@ class Screener:
             warnings=list(view.warnings),
             climate_path=section.climate_path,
             inputs=dict(view.inputs),
+            replay_note=replay_note,
         )
 
     def screen_all(self, sections, progress=None, engine=None) -> ScreenResult:

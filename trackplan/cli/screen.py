@@ -169,8 +169,8 @@ def print_summary(result, s: str, wide: bool = False) -> None:
     for station, ids, w in grouped_warnings((r.station, r.id, w) for r in secs for w in r.warnings):
         console.print(f"[yellow]Warning[/] ({station}; {', '.join(ids)}): {escape(units.text_in(w, s))}",
                       highlight=False)
-    notes = sorted({n for r in secs for n in r.notes if not n.startswith("days before the neutral date")})
-    replay = sum(any(n.startswith("days before the neutral date") for n in r.notes) for r in secs)
+    notes = sorted({n for r in secs for n in r.notes if n != r.replay_note})
+    replay = sum(r.replay_note is not None for r in secs)
     o = result.options
     console.print(
         f"Levels: watch from {o.watch_fraction:.0%} of the allowable rise, restrict from the allowable rise, critical "
