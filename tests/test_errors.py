@@ -91,3 +91,15 @@ def test_warnings_merged_in_one_place():
     assert [n.code for n in merged] == ["gaps", "no_coordinates", "assumed_input"]
     assert all(isinstance(n, notices.Notice) for n in merged)
     assert [n.code for n in notices.merge(record, method, drop=("no_coordinates",))] == ["gaps", "assumed_input"]
+
+
+def test_a_zone_given_for_the_record_is_placed_at_its_option_or_section_field(run_cli, tmp_path):
+    from trackplan.weather import sample_records
+
+    rec = sample_records()["quennick_sands"]
+    res = run_cli("railtemp", rec, "--rail", "60E1", "--tz", "UTC+99")
+    assert res.exit_code == 2 and "--tz: time zone offset 'UTC+99' is outside" in res.output
+    (tmp_path / "n.toml").write_text(f'[defaults]\nrail = "60E1"\nclimate = "{rec}"\n'
+                                     '[sections.A]\nneutral_temperature = "30 degC"\ntz = "UTC+99"\n')
+    res = run_cli("check", tmp_path / "n.toml")
+    assert res.exit_code == 2 and "n.toml [sections.A] tz: time zone offset 'UTC+99'" in res.output

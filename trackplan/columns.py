@@ -402,7 +402,7 @@ def zone_text(tz_text, tz_where, ctx, step_kind: str = "hourly"):
         if tz_text is not None and tz_text.strip() != ctx.tz.strip():
             ctx.warn(f"the file says time zone {excerpt(tz_text)}; {ctx.tz!r} given for the record is used",
                      code="time_zone")
-        return ctx.tz, "--tz / tz"
+        return ctx.tz, None  # given by the caller: placed at its option or section field
     if tz_text is not None or ctx.site_lon is None:
         return tz_text, tz_where
     off = float(round(ctx.site_lon / 15.0))

@@ -229,7 +229,7 @@ def _offset_text(offset_h: float) -> str:
     return f"UTC{sign}{m // 60:02d}:{m % 60:02d}"
 
 
-def _parse_timezone(text: str, where: str, year: int = 2001) -> tuple[str, float]:
+def _parse_timezone(text: str, where: str | None, year: int = 2001) -> tuple[str, float]:
     """Return ``(tz text, standard offset [h])`` for a timezone metadata value."""
     t = text.strip()
     if t.upper() in ("UTC", "GMT", "Z"):
@@ -240,7 +240,7 @@ def _parse_timezone(text: str, where: str, year: int = 2001) -> tuple[str, float
         hours = int(m.group(2)) + int(m.group(3) or 0) / 60.0
         off = sign * hours
         if abs(off) > 14:
-            raise InputError(f"time zone offset {excerpt(t)} is outside -12..+14 h", where)
+            raise InputError(f"time zone offset {excerpt(t)} is outside -12..+14 h", where, field="tz")
         return _offset_text(off), off
     try:
         from zoneinfo import ZoneInfo
@@ -250,7 +250,7 @@ def _parse_timezone(text: str, where: str, year: int = 2001) -> tuple[str, float
         raise InputError(
             f"unknown time zone {excerpt(t)}; write UTC, a fixed offset such as 'UTC-06:00' or '+05:30', "
             "or an IANA name such as 'America/Chicago'",
-            where,
+            where, field="tz",
         ) from None
     d = _dt.datetime(year, 1, 15, 12, tzinfo=zi)
     std = (d.utcoffset() - d.dst()).total_seconds() / 3600.0
