@@ -465,3 +465,11 @@ def _check_order(index: pd.DatetimeIndex, lines, ctx: _Ctx) -> None:
 
 
 # --------------------------------------------------------------------------
+
+
+def _check_latlon(meta: dict, ctx: _Ctx, line: int | None) -> None:
+    """Refuse a record's coordinates outside the range of a latitude or longitude (:mod:`trackplan.ranges`)."""
+    for key, name in (("latitude_deg", "latitude"), ("longitude_deg", "longitude")):
+        value, (lo, hi) = meta.get(key), ranges.bounds(name)
+        if value is not None and not lo <= value <= hi:
+            raise InputError(f"{name} {value:g} is outside {lo:g}..{hi:g} degrees", ctx.at(line))

@@ -21,12 +21,12 @@ from trackplan.readers_common import (
     _TMAX,
     _TMIN,
     _base_meta,
+    _check_latlon,
     _Ctx,
     _first_lines,
     _parse_meta_lines,
     _parser_message,
 )
-from trackplan.readers_typical import _check_latlon
 
 
 # GHCN-Daily by_station CSV

@@ -13,7 +13,7 @@ import pandas as pd
 
 from trackplan.errors import InputError
 from trackplan.readers_checks import _finish
-from trackplan.readers_common import TYPICAL_YEAR, _base_meta, _check_order, _Ctx, _fixed_tz, _offset_text
+from trackplan.readers_common import TYPICAL_YEAR, _base_meta, _check_latlon, _check_order, _Ctx, _fixed_tz, _offset_text
 
 
 # TMY3 and EPW through pvlib
@@ -130,14 +130,6 @@ def _read_epw(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
     data = _typical_common(raw, _TMY3_MAP, raw.get("total_sky_cover"), meta, ctx, _EPW_MISSING, header_lines=8)
     data = _finish(data, meta, ctx, "hourly")
     return data, meta
-
-
-def _check_latlon(meta: dict, ctx: _Ctx, line: int | None) -> None:
-    lat, lon = meta.get("latitude_deg"), meta.get("longitude_deg")
-    if lat is not None and not -90.0 <= lat <= 90.0:
-        raise InputError(f"latitude {lat:g} is outside -90..90 degrees", ctx.at(line))
-    if lon is not None and not -180.0 <= lon <= 180.0:
-        raise InputError(f"longitude {lon:g} is outside -180..180 degrees", ctx.at(line))
 
 
 # --------------------------------------------------------------------------

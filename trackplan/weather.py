@@ -216,6 +216,7 @@ from trackplan.readers_checks import (  # noqa: F401
     _years,
 )
 from trackplan.readers_common import (  # noqa: F401
+    _check_latlon,
     _AIR,
     _bad_time_row,
     _base_meta,
@@ -269,7 +270,6 @@ from trackplan.readers_ghcn import (  # noqa: F401
     _read_ghcn_daily,
 )
 from trackplan.readers_typical import (  # noqa: F401
-    _check_latlon,
     _EPW_MISSING,
     _read_epw,
     _read_tmy3,
