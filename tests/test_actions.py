@@ -15,8 +15,11 @@ E, A, ALPHA, R = 210e9, 76.70e-4, 1.15e-5, 6e3
 
 def assessment(neutral_C=30.0, design_max_C=70.0, design_min_C=-30.0, allowable_K=35.0, gap_limit_m=0.05,
                target_C=40.0, ballast="consolidated", basis="destressed"):
-    c = check.check_section(neutral_C, 5.0, design_max_C, design_min_C, allowable_K, E, A, ALPHA, R, gap_limit_m,
-                            160e6, target_C, "June", basis)
+    c = check.check_section(latest_neutral_C=neutral_C, drift_allowance_K=5.0, design_max_C=design_max_C,
+                            design_min_C=design_min_C, allowable_rise_K=allowable_K, E_Pa=E, area_m2=A,
+                            alpha_per_K=ALPHA, resistance_N_per_m=R, gap_limit_m=gap_limit_m,
+                            tension_stress_limit_Pa=160e6, target_C=target_C, destress_before="June",
+                            neutral_basis=basis)
     sec = NS(ballast=ballast, shoulder="full", neutral_basis=basis)
     tgt = NS(target_neutral_temperature_C=target_C, laying_range_C=(target_C - 3, target_C + 3))
     return NS(check=c, section=sec, target=tgt, climate=NS(hot_month="June"), longitudinal_resistance_N_per_m=R)

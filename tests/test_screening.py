@@ -325,9 +325,12 @@ def test_consistency_with_check(tmp_path):
         t = tmax.copy()
         t[200] = peak
         s = screening.Screener(FakeAssessor(_daily("2020-01-01", t))).screen(sec)
-        c = check.check_section(sec.latest_neutral_temperature_C, sec.drift_allowance_K, float(t.max()), -5.0,
-                                STAB["consolidated"].allowable_rise_K, E, A, ALPHA, R, sec.gap_limit_m,
-                                sec.tension_stress_limit_Pa, neutral_basis="destressed")
+        c = check.check_section(latest_neutral_C=sec.latest_neutral_temperature_C,
+                                drift_allowance_K=sec.drift_allowance_K, design_max_C=float(t.max()),
+                                design_min_C=-5.0, allowable_rise_K=STAB["consolidated"].allowable_rise_K,
+                                E_Pa=E, area_m2=A, alpha_per_K=ALPHA, resistance_N_per_m=R,
+                                gap_limit_m=sec.gap_limit_m, tension_stress_limit_Pa=sec.tension_stress_limit_Pa,
+                                neutral_basis="destressed")
         assert c.verdict == verdict
         assert s.worst_day.rise_K == pytest.approx(c.heat_rise_K)
         assert (s.heat_days_by_level["restrict"] + s.heat_days_by_level["critical"] > 0) == (verdict == "act")

@@ -66,3 +66,36 @@ def test_resistance_must_be_positive():
         thermal.breathing_length(1e5, 0.0)
     with pytest.raises(InputError):
         thermal.end_movement(1e5, 210e9, 7e-3, -1.0)
+
+
+def test_inverse_gap_formula_hand_worked_and_round_trip():
+    # g = E A (alpha dT)**2 / r (Esveld 2001, Modern Railway Track ch. 7) solved for dT, by hand:
+    # sqrt(0.05 * 10e3 / (210e9 * 76.70e-4)) / 1.15e-5 = 48.448 K
+    E, A, alpha, r = 210e9, 76.70e-4, 1.15e-5, 10e3
+    drop = thermal.gap_drop_K(0.05, E, A, alpha, r)
+    assert drop == pytest.approx(48.448, abs=1e-3)
+    force = thermal.thermal_force(-drop, E, A, alpha)
+    assert thermal.pull_apart_gap(force, E, A, r) == pytest.approx(0.05, rel=1e-12)
+    assert thermal.gap_force_N(0.05, E, A, r) == pytest.approx(-force, rel=1e-12)
+    assert thermal.gap_resistance_N_per_m(0.05, drop, E, A, alpha) == pytest.approx(r, rel=1e-12)
+
+
+def test_cold_side_group_by_keyword_only():
+    cold = thermal.ColdSide(E_Pa=210e9, area_m2=76.70e-4, alpha_per_K=1.15e-5, resistance_N_per_m=10e3,
+                            gap_limit_m=0.05, tension_stress_limit_Pa=160e6)
+    # stress limit: 160e6 / (210e9 * 1.15e-5) = 66.253 K; gap limit 48.448 K governs
+    assert cold.stress_drop_K() == pytest.approx(66.253, abs=1e-3)
+    assert cold.limit_drop_K() == pytest.approx(48.448, abs=1e-3)
+    assert cold.gap_m(cold.gap_drop_K()) == pytest.approx(0.05, rel=1e-12)
+    assert cold.tension_stress_Pa(cold.stress_drop_K()) == pytest.approx(160e6, rel=1e-12)
+    with pytest.raises(TypeError):
+        thermal.ColdSide(210e9, 76.70e-4, 1.15e-5, 10e3, 0.05, 160e6)
+
+
+def test_physics_entry_points_take_their_figures_by_name():
+    from trackplan import check, target
+
+    with pytest.raises(TypeError):
+        target.recommend_neutral(52.0, -10.0, 30.0, 5.0, 210e9, 76.70e-4, 1.15e-5, 10e3, 0.05, 160e6)
+    with pytest.raises(TypeError):
+        check.check_section(27.0, 5.0, 52.0, -10.0, 30.0, 210e9, 76.70e-4, 1.15e-5, 10e3, 0.05, 160e6)

@@ -28,8 +28,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from trackplan import check as check_mod
+from trackplan import notices
 from trackplan import target as target_mod
-from trackplan.errors import InputError
+from trackplan.errors import InputError, TrackplanError
 from trackplan.sections import Section
 
 #: Track azimuths are rounded to this step for the daily rail extremes [deg].
@@ -213,8 +214,7 @@ class Assessor:
                                               years=meta.get("years"), allow_short=self.allow_short)
             self._design[dkey] = (design, _hot_month(daily))
         design, month = self._design[dkey]
-        warnings = list(dict.fromkeys(list(meta.get("warnings", [])) + list(daily.attrs.get("warnings", []))
-                                      + list(design.warnings)))
+        warnings = notices.merge(meta.get("warnings"), daily.attrs.get("warnings"), design.warnings)
         return ClimateResult(design, daily.attrs.get("method", section.rail_temperature_method),
                              str(meta.get("station", section.climate_path.stem)), month, warnings,
                              meta.get("tz"), meta.get("time_step"))
@@ -286,15 +286,19 @@ class Assessor:
         r = self.longitudinal_resistance(section)
         st = section.steel
         A = section.profile.area_m2
+        cold = dict(E_Pa=st.E_Pa, area_m2=A, alpha_per_K=st.alpha_per_K, resistance_N_per_m=r,
+                    gap_limit_m=section.gap_limit_m, tension_stress_limit_Pa=section.tension_stress_limit_Pa)
         tgt = target_mod.recommend_neutral(
-            clim.design_max_C, clim.design_min_C, float(stab.allowable_rise_K), section.drift_allowance_K,
-            st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m, section.tension_stress_limit_Pa,
-            section.laying_tolerance_K, priority=self.priority,
+            design_max_C=clim.design_max_C, design_min_C=clim.design_min_C,
+            allowable_rise_K=float(stab.allowable_rise_K), drift_allowance_K=section.drift_allowance_K, **cold,
+            laying_tolerance_K=section.laying_tolerance_K, priority=self.priority,
         )
         chk = check_mod.check_section(
-            section.latest_neutral_temperature_C, section.drift_allowance_K, clim.design_max_C, clim.design_min_C,
-            float(stab.allowable_rise_K), st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m,
-            section.tension_stress_limit_Pa, tgt.target_neutral_temperature_C, clim.hot_month, section.neutral_basis,
+            latest_neutral_C=section.latest_neutral_temperature_C, drift_allowance_K=section.drift_allowance_K,
+            design_max_C=clim.design_max_C, design_min_C=clim.design_min_C,
+            allowable_rise_K=float(stab.allowable_rise_K), **cold,
+            target_C=tgt.target_neutral_temperature_C, destress_before=clim.hot_month,
+            neutral_basis=section.neutral_basis,
         )
         annual = clim.design.annual
         rec_max = float(annual["max_rail_temperature_C"].max()) if len(annual) else None
@@ -304,7 +308,7 @@ class Assessor:
         return SectionAssessment(section, clim, stab, r, tgt, chk, practice)
 
     def assess_all(self, sections: list[Section], progress=None,
-                   engine=None) -> tuple[list[SectionAssessment], list[InputError]]:
+                   engine=None) -> tuple[list[SectionAssessment], list[TrackplanError]]:
         """Assess every section, grouped by climate record; problems are collected, not raised.
 
         With many sections and a Dask ``engine`` (:mod:`trackplan.engine`), the climate
@@ -317,7 +321,7 @@ class Assessor:
         out = map_record_groups(lambda idx: self._assess_indices(sections, idx),
                                 sections, progress, engine)
         results = [out[i] for i in range(len(sections)) if isinstance(out.get(i), SectionAssessment)]
-        problems = [out[i] for i in sorted(out) if isinstance(out[i], InputError)]
+        problems = [out[i] for i in sorted(out) if isinstance(out[i], TrackplanError)]
         return results, problems
 
     def _assess_indices(self, sections, indices) -> dict:
@@ -334,17 +338,17 @@ class Assessor:
 SECTION_FIELDS = {"lat": "latitude", "lon": "longitude", "azimuth": "track_azimuth"}
 
 
-def section_problem(section: Section, exc: BaseException) -> InputError:
+def section_problem(section: Section, exc: BaseException) -> TrackplanError:
     """A failure while assessing ``section`` as a problem of that section (file, section, field).
 
-    An :class:`InputError` that already names a place in a file is kept; one raised by a
-    computation module (naming a field, or nothing) is placed in the section; anything
-    unforeseen becomes an error of the section that says it is an internal fault.
+    An input or model error (:class:`TrackplanError`) that already names a place in a file is
+    kept; one raised by a computation module (naming a field, or nothing) is placed in the
+    section; anything unforeseen becomes an error of the section that says it is an internal fault.
     """
     from trackplan.errors import excerpt
 
     where = f"{section.file.name} [sections.{section.id}]"
-    if isinstance(exc, InputError):
+    if isinstance(exc, TrackplanError):
         if exc.where is None:
             return exc.relocated(where)
         if exc.field is not None and exc.where == exc.field:
@@ -422,7 +426,7 @@ def _solve_track(inp):
 
     try:
         return stability.analyse_stability(inp)
-    except InputError as exc:
+    except TrackplanError as exc:  # bad input or a model that cannot give a number
         return exc
     except Exception as exc:  # returned, so that one track cannot stop the pool
         from trackplan.errors import excerpt

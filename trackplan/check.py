@@ -72,6 +72,7 @@ Reason = units.Phrase
 
 
 def check_section(
+    *,
     latest_neutral_C: float,
     drift_allowance_K: float,
     design_max_C: float,

@@ -29,7 +29,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
-from trackplan.errors import InputError, excerpt
+from trackplan.errors import InputError, UnitKindError, excerpt
 
 #: Quantity names a mapping may use -> canonical column (``time`` is the timestamp column).
 CANONICAL = {
@@ -298,11 +298,11 @@ def csv_plan(names: list[str], mapping, quantities: dict, where_header: str):
 
             try:
                 units.to_si(1.0, unit, q.kind)
-            except InputError as exc:
-                if " is not a " not in exc.bare_message:
-                    raise InputError(exc.bare_message, w) from None
+            except UnitKindError:
                 raise InputError(f"unit [{unit}] of {name} (column {excerpt(h)}) is not a {q.kind} unit; accepted: "
                                  + ", ".join(units.accepted_units(q.kind)), w) from None
+            except InputError as exc:
+                raise InputError(exc.bare_message, w) from None
         cand[h] = (q, unit, w, h in mapped or any(norm(h) == norm(m) for m in mapped))
     return names[hdr.time_index], cand, list(hdr.ignored)
 
@@ -402,7 +402,7 @@ def zone_text(tz_text, tz_where, ctx, step_kind: str = "hourly"):
         if tz_text is not None and tz_text.strip() != ctx.tz.strip():
             ctx.warn(f"the file says time zone {excerpt(tz_text)}; {ctx.tz!r} given for the record is used",
                      code="time_zone")
-        return ctx.tz, "--tz / tz"
+        return ctx.tz, None  # given by the caller: placed at its option or section field
     if tz_text is not None or ctx.site_lon is None:
         return tz_text, tz_where
     off = float(round(ctx.site_lon / 15.0))

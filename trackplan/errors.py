@@ -1,9 +1,18 @@
-"""One error hierarchy for input problems.
+"""One error tree for the problems the tool reports as plain messages.
 
-Every problem with what a person gave (an option, a file, a field) raises
-:class:`InputError`. The command line catches it in one place, prints the
-message (what is wrong, where, what is accepted) and exits with code 2,
-never with a traceback.
+::
+
+    TrackplanError            a problem reported as a one-line message, never a traceback
+    +-- InputError            bad input: an option, a file, a field (what, where, what is accepted)
+    |   +-- UnitKindError     a unit of another kind of quantity ('3 m' where a force is needed)
+    +-- ModelError            valid input for which a model cannot give a number
+        +-- StabilityError    (trackplan.track) the equilibrium path cannot be followed
+
+The command line catches :class:`TrackplanError` in one place, prints the
+message and exits with code 2 (the input, or what it asks of a model, has to
+change), never with a traceback; in a section file either kind is a problem of
+that section and the other sections are still computed. Anything else is a
+fault in trackplan (exit code 3).
 
 Computation modules name *fields* (``length``, ``rail_temperature``), never
 command-line options: the command line (or the section reader) puts the
@@ -18,8 +27,8 @@ EXCERPT_CHARS = 32
 MAX_WHERE_CHARS = 160
 
 
-class InputError(ValueError):
-    """Bad input: the message names what, where, and what is accepted.
+class TrackplanError(Exception):
+    """A problem reported as a plain message: what is wrong and where.
 
     Parameters
     ----------
@@ -46,9 +55,26 @@ class InputError(ValueError):
         self.bare_message = message
         super().__init__(f"{where}: {message}" if where else message)
 
-    def relocated(self, where: str) -> "InputError":
-        """The same problem placed at ``where`` (an option, or file and section)."""
-        return InputError(self.bare_message, where)
+    def relocated(self, where: str) -> "TrackplanError":
+        """The same problem (same class) placed at ``where`` (an option, or file and section)."""
+        return type(self)(self.bare_message, where)
+
+
+class InputError(TrackplanError, ValueError):
+    """Bad input: the message names what, where, and what is accepted (see :class:`TrackplanError`)."""
+
+
+class UnitKindError(InputError):
+    """A unit of another kind of quantity than the one needed (a length where a force is needed)."""
+
+
+class ModelError(TrackplanError):
+    """Valid input for which a model cannot give a number (a solver that cannot follow its path).
+
+    Not bad input: the message says what the model could not do and for which inputs; the
+    command line reports it like an input problem (exit code 2), a network run as a problem of
+    the section concerned.
+    """
 
 
 def excerpt(value, limit: int = EXCERPT_CHARS) -> str:

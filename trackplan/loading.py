@@ -65,6 +65,7 @@ from importlib import resources
 
 import numpy as np
 
+from trackplan import names
 from trackplan.errors import InputError
 
 #: Accepted range of axle loads [N] (0 excluded, up to 50 t).
@@ -72,9 +73,9 @@ AXLE_LOAD_RANGE_N = (1.0e3, 50.0e3 * 9.80665)
 #: Accepted range of the track support modulus per rail [N/m**2] (2-150 MPa).
 SUPPORT_MODULUS_RANGE_N_PER_M2 = (2.0e6, 150.0e6)
 #: Name that switches vehicle loading off (the unloaded, static analysis).
-NO_LOADING = "none"
+NO_LOADING = names.NO_LOADING
 #: Default train preset.
-DEFAULT_LOADING = "freight-22.5t"
+DEFAULT_LOADING = names.DEFAULT_LOADING
 #: Number of vehicles of the train placed around the misalignment.
 N_VEHICLES = 4
 G = 9.80665

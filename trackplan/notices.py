@@ -28,6 +28,7 @@ code                       meaning
 ``quality_flag``           values flagged by the data archive, treated as missing
 ``calendar``               a model calendar (noleap, 360_day) mapped to dates
 ``assumed_input``          an input the record lacks, assumed (clear sky, wind)
+``no_coordinates``         the record gives no latitude/longitude (a section or option may)
 ``winter_months``          the months screened are mostly winter at the station
 ``record_note``            anything else about the record
 =========================  =====================================================
@@ -42,7 +43,7 @@ CODES = (
     "gaps", "interpolated", "incomplete_years", "unit_suspect", "impossible_values", "time_zone",
     "ignored_columns", "smoothed_series", "typical_year", "repeated_years", "short_record",
     "observed_extreme_used", "extrapolated", "heavy_tail", "quality_flag", "calendar", "assumed_input",
-    "winter_months", "record_note",
+    "winter_months", "no_coordinates", "record_note",
 )
 
 
@@ -77,6 +78,7 @@ class Notice(str):
 # Older warnings are plain text: their code is read from their words (first match wins).
 _PATTERNS = (
     ("quality_flag", r"quality flag"),
+    ("no_coordinates", r"no latitude/longitude"),
     ("interpolated", r"filled by linear interpolation"),
     ("unit_suspect", r"look(s)? like|may be deg|is the unit|very high;"),
     ("impossible_values", r"impossible value"),
@@ -111,6 +113,19 @@ def as_notice(w) -> Notice:
     m = _WHERE_RE.match(text)
     where = m.group(1) if m and ("/" in m.group(1) or "." in m.group(1) or " line " in m.group(1)) else None
     return Notice(text, classify(text), where)
+
+
+def merge(*groups, drop: tuple = ()) -> list[Notice]:
+    """The warnings of several sources (the record, the rail temperature method, the design values,
+    the season) as one list: every one a :class:`Notice`, in order, each once, the codes in
+    ``drop`` left out (a lack the caller has made good). The one place warnings are merged."""
+    out: list[Notice] = []
+    for group in groups:
+        for w in group or ():
+            n = as_notice(w)
+            if n.code not in drop:
+                out.append(n)
+    return list(dict.fromkeys(out))
 
 
 def to_json(warnings) -> list[dict]:

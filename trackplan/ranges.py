@@ -147,6 +147,23 @@ KIND_RANGES = {
     "time": (0.0, 1e10),
 }
 
+#: Limits of validity of the lateral stability model (trackplan.track.check_input), SI: wider
+#: than the plausible ranges above, which refuse slips of input; these refuse figures the model
+#: was not built for, whoever sets them (a section, an override, a sampled uncertainty).
+MODEL_LIMITS: dict[str, Range] = {
+    "misalignment": Range("length", 0.0, 0.5, "misalignment amplitude"),
+    "misalignment_length": Range("length", 1.0, 40.0, "misalignment length"),
+    "peak_displacement": Range("length", 0.0, 50 * _mm, "lateral displacement at the peak resistance"),
+    "limit_displacement": Range("length", 0.0, 500 * _mm, "lateral displacement of the limit resistance"),
+    "radius": Range("length", 100.0, math.inf, "curve radius"),
+}
+
+#: A calendar year (or season) of a record is complete enough when this share of its days
+#: (or values) has data ...
+YEAR_MIN_COVERAGE = 0.9
+#: ... and every month has at least this share (a missing July would hide the year's maximum).
+MONTH_MIN_COVERAGE = 0.7
+
 #: A value of smaller magnitude than this (but not zero) is refused as vanishing (a slip of the
 #: exponent, a denormal number): no input of trackplan is that small in SI.
 TINY = 1e-30
@@ -176,6 +193,14 @@ def lookup(field: str | None) -> Range | None:
         return None
     field = ALIASES.get(field, field)
     return RANGES.get(field)
+
+
+def bounds(field: str) -> tuple[float, float]:
+    """``(lo, hi)`` of a field's plausible range [SI] (through :data:`ALIASES`)."""
+    row = lookup(field)
+    if row is None:
+        raise KeyError(field)
+    return (row.lo, row.hi)
 
 
 def _fmt(v: float) -> str:

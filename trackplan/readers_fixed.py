@@ -191,7 +191,7 @@ def read_dly(text: str, ctx) -> tuple[pd.DataFrame, dict]:
 def _zone(ctx, meta) -> tuple[str, float, str]:
     """Zone for UTC timestamps: ``(tz text, standard offset [h], how chosen)``."""
     if ctx.tz is not None:
-        name, off = W._parse_timezone(ctx.tz, "--tz / tz")
+        name, off = W._parse_timezone(ctx.tz, None)
         return name, off, "given for the record"
     lon = ctx.site_lon if ctx.site_lon is not None else meta.get("longitude_deg")
     if lon is not None:

@@ -71,6 +71,7 @@ from pathlib import Path
 
 import sqlalchemy as sa
 
+from trackplan import ranges
 from trackplan.errors import InputError
 
 #: Schema version this code writes; older registers are migrated, newer refused.
@@ -92,8 +93,8 @@ KIND_BASIS = {"laid": "laid", "renewed": "laid", "destressed": "destressed", "ad
 #: lies in the range of neutral temperatures in practice (as for section files,
 #: :mod:`trackplan.sections`); a measured value may lie further out, as a badly
 #: set or long-drifted string can (:data:`trackplan.destressing.CURRENT_NEUTRAL_RANGE_C`).
-SET_RANGE_C = (-10.0, 60.0)
-MEASURED_RANGE_C = (-30.0, 70.0)
+SET_RANGE_C = ranges.bounds("neutral_temperature")
+MEASURED_RANGE_C = ranges.bounds("measured_neutral_temperature")
 #: Accepted standard uncertainty of a neutral temperature [K] (0 excluded).
 UNCERTAINTY_RANGE_K = (0.0, 25.0)
 #: Earliest date accepted (welded rail did not exist before it).

@@ -39,6 +39,7 @@ import time
 from pathlib import Path
 from typing import Callable, Iterable
 
+from trackplan import notices
 from trackplan.errors import InputError, excerpt
 
 #: Name of the manifest written last into an output folder.
@@ -426,50 +427,10 @@ def matplotlib_backend() -> None:
 
 
 def check_rows(assessments) -> list[dict]:
-    """One flat row of figures per assessed section (SI, units in column names)."""
-    from trackplan.actions import section_action
+    """One flat CSV row of figures per assessed section (see :func:`trackplan.assessment_tables.check_rows`)."""
+    from trackplan.assessment_tables import check_rows as rows
 
-    rows = []
-    for a in assessments:
-        s, c, t = a.section, a.check, a.target
-        action = section_action(a)
-        rows.append({
-            "section": s.id,
-            "name": s.name,
-            "location": s.location,
-            "verdict": c.verdict,
-            "reasons": " | ".join(c.reasons),
-            "action": "" if action is None else str(action),
-            "rail": s.profile.name,
-            "sleeper": s.sleeper,
-            "ballast": s.ballast,
-            "curve": s.curve_label,
-            "station": a.climate.station,
-            "rail_temperature_method": a.climate.method,
-            "design_basis": a.climate.design.design_basis,
-            "return_period_years": a.climate.design.return_period_years,
-            "design_max_rail_temperature_C": c.design_max_rail_temperature_C,
-            "design_min_rail_temperature_C": c.design_min_rail_temperature_C,
-            "recorded_neutral_temperature_C": s.latest_neutral_temperature_C,
-            "drift_allowance_K": s.drift_allowance_K,
-            "current_neutral_temperature_C": c.current_neutral_temperature_C,
-            "heat_rise_K": c.heat_rise_K,
-            "upper_critical_rise_K": a.stability.upper_critical_rise_K,
-            "lower_critical_rise_K": a.stability.lower_critical_rise_K,
-            "allowable_rise_K": c.allowable_rise_K,
-            "heat_margin_K": c.heat_margin_K,
-            "max_compression_force_per_rail_kN": c.max_compression_force_per_rail_N / 1e3,
-            "max_tension_force_per_rail_kN": c.max_tension_force_per_rail_N / 1e3,
-            "max_tension_stress_MPa": c.max_tension_stress_Pa / 1e6,
-            "pull_apart_gap_mm": c.pull_apart_gap_m * 1e3,
-            "gap_limit_mm": c.gap_limit_m * 1e3,
-            "longitudinal_resistance_kN_per_m": a.longitudinal_resistance_N_per_m / 1e3,
-            "target_neutral_temperature_C": t.target_neutral_temperature_C,
-            "laying_range_low_C": t.laying_range_C[0] if t.laying_range_C else None,
-            "laying_range_high_C": t.laying_range_C[1] if t.laying_range_C else None,
-            "feasible": t.feasible,
-        })
-    return rows
+    return rows(assessments)
 
 
 def force_envelope_figure(a, system: str = "si"):
@@ -501,7 +462,7 @@ def force_envelope_figure(a, system: str = "si"):
     p_allow = thermal.thermal_force(c.allowable_rise_K, E, A, al)
     ax.axhline(conv_F(p_allow)[0], color="tab:red", lw=1,
                label=f"allowable compression (allowable rise {units.fmt(c.allowable_rise_K, 'temperature_difference', system)})")
-    g_force = -np.sqrt(c.gap_limit_m * E * A * a.longitudinal_resistance_N_per_m)
+    g_force = -thermal.gap_force_N(c.gap_limit_m, E, A, a.longitudinal_resistance_N_per_m)
     ax.axhline(conv_F(g_force)[0], color="tab:purple", lw=1,
                label=f"tension at the {units.fmt(c.gap_limit_m, 'short_length', system, 0 if system == 'si' else 1)} break-gap limit")
     for k, tv in enumerate((c.design_min_rail_temperature_C, c.design_max_rail_temperature_C)):
@@ -568,7 +529,7 @@ def grouped_warnings(items) -> list[tuple[str, list[str], str]]:
     ``(station, section id, warning)`` triples, in first-seen order."""
     seen: dict[tuple[str, str], list[str]] = {}
     for station, sid, w in items:
-        if "no latitude/longitude" in w:
+        if notices.as_notice(w).code == "no_coordinates":
             continue  # a section that was assessed had its coordinates (from the section file)
         ids = seen.setdefault((station, w), [])
         if sid not in ids:

@@ -108,6 +108,7 @@ Acta Mechanica 30, 17-50 (upper and lower critical rises of the equilibrium
 curve; the lower one as the safe limit).
 """
 
+
 from __future__ import annotations
 
 import datetime as dt
@@ -116,374 +117,48 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from trackplan import notices, thermal
-from trackplan.check import DEFAULT_WATCH_FRACTION
-from trackplan.errors import InputError
+from trackplan.check import DEFAULT_WATCH_FRACTION  # noqa: F401  (importable from here)
+from trackplan import notices
+from trackplan.errors import InputError, TrackplanError
 from trackplan.seasons import month_list, station_months, winter_warnings
 
-#: Heat levels, lowest first; their codes in the per-day arrays are 1, 2, 3 (0 = none).
-LEVELS = ("watch", "restrict", "critical")
-#: Level name of a cold day.
-COLD_LEVEL = "cold"
-#: Names of the flagged-day codes 0..3.
-FLAG_NAMES = LEVELS + (COLD_LEVEL,)
-#: Fewest complete years for a trend.
-MIN_TREND_YEARS = 5
-#: A year (season) is complete when this fraction of its days has data.
-YEAR_MIN_COVERAGE = 0.9
-#: Bounds of the what-if options.
-WARMING_LIMIT_K = 10.0
-NEUTRAL_RANGE_C = (-10.0, 60.0)
+# The per-day core and the tables live apart; every name stays importable from here.
 
-_EPOCH = np.datetime64("1970-01-01", "D")
-
-
-# --------------------------------------------------------------------------
-# Pure core: per-day arrays
-# --------------------------------------------------------------------------
-
-
-def day_number(date) -> int:
-    """Days since 1970-01-01 of a date (the integer day used by the core)."""
-    return int((np.datetime64(date, "D") - _EPOCH).astype(np.int64))
-
-
-def neutral_by_day(day, recorded_neutral_C: float, changes=()) -> np.ndarray:
-    """Neutral temperature on each day.
-
-    Parameters
-    ----------
-    day : array of int
-        Days since 1970-01-01 (:func:`day_number`), in any order.
-    recorded_neutral_C : float
-        Neutral temperature before the first change [degC].
-    changes : sequence of (int, float)
-        ``(day, neutral_C)`` of each destressing or renewal, in date order: the
-        new value applies from that day on [degC].
-
-    Returns
-    -------
-    numpy.ndarray
-        Neutral temperature per day [degC].
-    """
-    day = np.asarray(day, dtype=np.int64)
-    if not changes:
-        return np.full(day.shape, float(recorded_neutral_C))
-    cd = np.array([c[0] for c in changes], dtype=np.int64)
-    if np.any(np.diff(cd) <= 0):
-        raise InputError("neutral-setting events must be in date order, at most one per day", "events")
-    values = np.array([recorded_neutral_C] + [float(c[1]) for c in changes])
-    return values[np.searchsorted(cd, day, side="right")]
-
-
-def track_state_by_day(day, knots, disturbances=()) -> np.ndarray:
-    """A track-state quantity (allowable or critical rise) on each day.
-
-    Parameters
-    ----------
-    day : array of int
-        Days since 1970-01-01.
-    knots : sequence of float
-        The quantity at equal steps of recovery, from the ``disturbed`` state
-        (first) to the section's own state (last) [K]; one value means no
-        reduction. NaN (undefined) propagates to the neighbouring segments.
-    disturbances : sequence of (int, int)
-        ``(day, recovery_days)`` of each disturbing event. Windows must not
-        overlap.
-
-    Returns
-    -------
-    numpy.ndarray
-        The own-state value outside the windows; inside ``e <= d < e + R`` the
-        piecewise-linear interpolation of ``knots`` at ``x = (d - e) / R``.
-    """
-    day = np.asarray(day, dtype=np.int64)
-    knots = np.asarray(knots, dtype=float).ravel()
-    out = np.full(day.shape, knots[-1])
-    if knots.size == 1:
-        return out
-    xs = np.linspace(0.0, 1.0, knots.size)
-    windows = sorted((int(e), int(r)) for e, r in disturbances if r > 0)
-    for (e1, r1), (e2, _) in zip(windows, windows[1:]):
-        if e2 < e1 + r1:
-            raise InputError(f"disturbance windows overlap (days {e1} + {r1} and {e2})", "events")
-    for e, r in windows:
-        m = (day >= e) & (day < e + r)
-        if m.any():
-            x = (day[m] - e) / r
-            # np.interp does not propagate NaN knots reliably: interpolate segment by segment
-            seg = np.minimum((x * (knots.size - 1)).astype(int), knots.size - 2)
-            t = x * (knots.size - 1) - seg
-            out[m] = knots[seg] * (1.0 - t) + knots[seg + 1] * t
-    return out
-
-
-def classify_heat(rise_K, allowable_rise_K, critical_rise_K, watch_fraction: float = DEFAULT_WATCH_FRACTION):
-    """Heat level code per day: 0 none, 1 watch, 2 restrict, 3 critical (the highest reached).
-
-    Parameters
-    ----------
-    rise_K : array
-        Daily maximum rail temperature less the (drifted) neutral [K]; NaN gives 0.
-    allowable_rise_K, critical_rise_K : array or float
-        Thresholds of the day [K]; a NaN critical rise never triggers.
-    watch_fraction : float
-        ``watch`` from this fraction of the allowable rise.
-
-    Returns
-    -------
-    numpy.ndarray of int8
-    """
-    rise = np.asarray(rise_K, dtype=float)
-    allow = np.broadcast_to(np.asarray(allowable_rise_K, dtype=float), rise.shape)
-    crit = np.broadcast_to(np.asarray(critical_rise_K, dtype=float), rise.shape)
-    with np.errstate(invalid="ignore"):
-        lvl = np.where(rise >= watch_fraction * allow, 1, 0).astype(np.int8)
-        lvl[rise >= allow] = 2
-        lvl[rise >= crit] = 3
-    return lvl
-
-
-def cold_limit_rise_K(E_Pa: float, area_m2: float, alpha_per_K: float, resistance_N_per_m: float,
-                      gap_limit_m: float, tension_stress_limit_Pa: float) -> float:
-    """The most negative rise [K] within both cold limits.
-
-    Notes
-    -----
-    Stress: ``E alpha |dT| <= sigma_lim``. Gap: ``E A (alpha dT)**2 / r <= g_lim``,
-    so ``|dT| <= sqrt(g_lim r / (E A)) / alpha``. The limit is minus the smaller.
-    """
-    by_stress = tension_stress_limit_Pa / (E_Pa * alpha_per_K)
-    by_gap = math.sqrt(gap_limit_m * resistance_N_per_m / (E_Pa * area_m2)) / alpha_per_K
-    return -min(by_stress, by_gap)
-
-
-@dataclass(frozen=True)
-class DayScreen:
-    """Per-day results of :func:`screen_days` (arrays of one length)."""
-
-    valid: np.ndarray  # bool: both rail extremes present
-    rise_K: np.ndarray  # rail max - drifted neutral [K]
-    heat_level: np.ndarray  # int8 0..3 (0 on invalid days)
-    cold_rise_K: np.ndarray  # rail min - undrifted neutral [K]
-    tension_stress_Pa: np.ndarray  # positive in tension [Pa]
-    pull_apart_gap_m: np.ndarray  # [m]
-    cold: np.ndarray  # bool (False on invalid days)
-
-
-def screen_days(rail_max_C, rail_min_C, heat_neutral_C, cold_neutral_C, allowable_rise_K, critical_rise_K,
-                E_Pa: float, area_m2: float, alpha_per_K: float, resistance_N_per_m: float, gap_limit_m: float,
-                tension_stress_limit_Pa: float, watch_fraction: float = DEFAULT_WATCH_FRACTION) -> DayScreen:
-    """Heat level and cold flag of every day.
-
-    Parameters
-    ----------
-    rail_max_C, rail_min_C : array
-        Daily maximum and minimum rail temperature [degC]; NaN = missing.
-    heat_neutral_C : array or float
-        Neutral temperature for the heat side, drift already deducted [degC].
-    cold_neutral_C : array or float
-        Neutral temperature for the cold side (no drift) [degC].
-    allowable_rise_K, critical_rise_K : array or float
-        Track-state thresholds of each day [K].
-    E_Pa, area_m2, alpha_per_K : float
-        Young's modulus [Pa], rail area [m**2], expansion coefficient [1/K].
-    resistance_N_per_m : float
-        Longitudinal resistance per rail [N/m].
-    gap_limit_m : float
-        Allowable break gap [m].
-    tension_stress_limit_Pa : float
-        Allowable thermal tension stress [Pa].
-    watch_fraction : float
-        Fraction of the allowable rise at which ``watch`` starts.
-
-    Returns
-    -------
-    DayScreen
-
-    Notes
-    -----
-    ``dT = T_max - T_N,heat``; level by :func:`classify_heat`. Cold:
-    ``sigma = E alpha (T_min - T_N,cold)``, ``P = sigma A``, gap ``P**2 / (E A r)``
-    where ``P < 0``; cold when ``-sigma > sigma_lim`` or ``gap > g_lim``.
-    """
-    tmax = np.asarray(rail_max_C, dtype=float)
-    tmin = np.asarray(rail_min_C, dtype=float)
-    valid = np.isfinite(tmax) & np.isfinite(tmin)
-    rise = tmax - heat_neutral_C
-    level = classify_heat(rise, allowable_rise_K, critical_rise_K, watch_fraction)
-    level[~valid] = 0
-    cold_rise = tmin - cold_neutral_C
-    stress = thermal.thermal_stress(cold_rise, E_Pa, alpha_per_K)
-    force = stress * area_m2
-    with np.errstate(invalid="ignore"):
-        gap = thermal.pull_apart_gap(np.where(valid, force, 0.0), E_Pa, area_m2, resistance_N_per_m)
-        cold = valid & ((-stress > tension_stress_limit_Pa) | (gap > gap_limit_m))
-    return DayScreen(valid, rise, level, cold_rise, -stress, gap, cold)
-
-
-def month_selection(months_of_day, months: tuple[int, int] | None) -> np.ndarray:
-    """Boolean mask of days inside the month range (inclusive, may wrap the year end)."""
-    m = np.asarray(months_of_day)
-    if months is None:
-        return np.ones(m.shape, dtype=bool)
-    a, b = months
-    return (m >= a) & (m <= b) if a <= b else (m >= a) | (m <= b)
-
-
-def season_year(years, months_of_day, months: tuple[int, int] | None) -> np.ndarray:
-    """Year each day counts in: the calendar year, or for a wrapping month range the
-    year its season starts (days in months up to the range's end belong to the
-    season that started the year before)."""
-    y = np.asarray(years, dtype=np.int64)
-    if months is None or months[0] <= months[1]:
-        return y
-    return np.where(np.asarray(months_of_day) <= months[1], y - 1, y)
-
-
-def _ymd(dates):
-    d = np.asarray(dates, dtype="datetime64[D]")
-    y = d.astype("datetime64[Y]").astype(np.int64) + 1970
-    m = (d.astype("datetime64[M]").astype(np.int64) % 12) + 1
-    return y, m
-
-
-def season_lengths(years, months: tuple[int, int] | None) -> np.ndarray:
-    """Number of calendar days in each year's season (leap years included)."""
-    years = np.asarray(years, dtype=np.int64)
-    if years.size == 0:
-        return np.zeros(0, dtype=np.int64)
-    lo, hi = int(years.min()), int(years.max())
-    cal = np.arange(np.datetime64(f"{lo:04d}-01-01"), np.datetime64(f"{hi + 2:04d}-01-01"), dtype="datetime64[D]")
-    y, m = _ymd(cal)
-    sel = month_selection(m, months)
-    sy = season_year(y, m, months)[sel]
-    sy = sy[sy >= lo]  # January-February of the first year belong to the season before
-    counts = np.bincount(sy - lo, minlength=hi - lo + 2)
-    return counts[years - lo]
-
-
-@dataclass(frozen=True)
-class AnnualCounts:
-    """Days per year (season) of one section; arrays of one length, one entry per year."""
-
-    year: np.ndarray
-    season_days: np.ndarray  # calendar days of the season
-    screened_days: np.ndarray  # days with data
-    missing_days: np.ndarray  # days inside the screened window without data
-    watch_days: np.ndarray
-    restrict_days: np.ndarray
-    critical_days: np.ndarray
-    cold_days: np.ndarray
-    complete: np.ndarray  # bool: screened >= YEAR_MIN_COVERAGE * season days
-
-    @property
-    def heat_days(self) -> np.ndarray:
-        """Days at watch or above."""
-        return self.watch_days + self.restrict_days + self.critical_days
-
-
-def annual_counts(years, valid, heat_level, cold, season_days_of_year=None, groups=None) -> AnnualCounts:
-    """Count the levels per year.
-
-    Parameters
-    ----------
-    years : array of int
-        Year (season) of each screened day.
-    valid : array of bool
-        Day has data.
-    heat_level : array of int
-        Codes of :func:`classify_heat`.
-    cold : array of bool
-        Cold days.
-    season_days_of_year : callable or array, optional
-        ``years -> days in each year's season``, or those days for the sorted
-        unique years (default: the days present).
-    groups : (array, array), optional
-        ``numpy.unique(years, return_inverse=True)``, when already known.
-
-    Returns
-    -------
-    AnnualCounts
-    """
-    years = np.asarray(years, dtype=np.int64)
-    valid = np.asarray(valid, dtype=bool)
-    lvl = np.asarray(heat_level)
-    cold = np.asarray(cold, dtype=bool)
-    if years.size == 0:
-        z = np.zeros(0, dtype=np.int64)
-        return AnnualCounts(z, z, z, z, z, z, z, z, np.zeros(0, dtype=bool))
-    uy, inv = groups if groups is not None else np.unique(years, return_inverse=True)
-    n = uy.size
-
-    def cnt(mask):
-        return np.bincount(inv[mask], minlength=n).astype(np.int64)
-
-    present = np.bincount(inv, minlength=n).astype(np.int64)
-    screened = cnt(valid)
-    if season_days_of_year is None:
-        season = present
-    elif callable(season_days_of_year):
-        season = season_days_of_year(uy)
-    else:
-        season = season_days_of_year
-    season = np.asarray(season, dtype=np.int64)
-    return AnnualCounts(
-        year=uy,
-        season_days=season,
-        screened_days=screened,
-        missing_days=present - screened,
-        watch_days=cnt(valid & (lvl == 1)),
-        restrict_days=cnt(valid & (lvl == 2)),
-        critical_days=cnt(valid & (lvl == 3)),
-        cold_days=cnt(valid & cold),
-        complete=screened >= YEAR_MIN_COVERAGE * season,
-    )
-
-
-@dataclass(frozen=True)
-class Trend:
-    """Least-squares trend of yearly counts over complete years (days per decade)."""
-
-    heat_days_per_decade: float | None
-    heat_days_per_decade_se: float | None
-    restrict_days_per_decade: float | None
-    cold_days_per_decade: float | None
-    years_used: int
-    note: str
-
-
-def _slope(x, y):
-    """Least-squares slope ``Sxy / Sxx`` (the degree-1 ``numpy.polyfit`` slope, in closed form) and its
-    standard error ``sqrt(SSR / (n - 2) / Sxx)``, both per decade."""
-    dx = x - x.mean()
-    sxx = float(dx @ dx)
-    b = float(dx @ (y - y.mean())) / sxx
-    resid = y - y.mean() - b * dx
-    se = math.sqrt(max(float(resid @ resid), 0.0) / (x.size - 2) / sxx) if x.size > 2 else None
-    return b * 10.0, (se * 10.0 if se is not None else None)
-
-
-def annual_trend(annual: AnnualCounts, typical_year: bool = False) -> Trend:
-    """Least-squares slope of the yearly counts (as ``numpy.polyfit``, degree 1) in days per decade.
-
-    Heat days are days at ``watch`` or above; restrict days at ``restrict`` or
-    above. Only complete years are used; fewer than :data:`MIN_TREND_YEARS`
-    (or a typical-year record) give no trend, with the reason in ``note``.
-    """
-    ok = annual.complete
-    n = int(ok.sum())
-    if typical_year:
-        return Trend(None, None, None, None, n, "typical-year record (not a time series)")
-    if n < MIN_TREND_YEARS:
-        return Trend(None, None, None, None, n,
-                     f"{n} complete year(s): a trend needs at least {MIN_TREND_YEARS}")
-    x = annual.year[ok].astype(float)
-    heat, se = _slope(x, annual.heat_days[ok].astype(float))
-    restrict, _ = _slope(x, (annual.restrict_days + annual.critical_days)[ok].astype(float))
-    cold, _ = _slope(x, annual.cold_days[ok].astype(float))
-    return Trend(heat, se, restrict, cold, n,
-                 f"least-squares slope over {n} complete years {int(x.min())}-{int(x.max())}")
+from trackplan.screening_core import (  # noqa: F401
+    annual_counts,
+    annual_trend,
+    AnnualCounts,
+    classify_heat,
+    COLD_LEVEL,
+    cold_limit_rise_K,
+    day_number,
+    DayScreen,
+    _EPOCH,
+    FLAG_NAMES,
+    LEVELS,
+    MIN_TREND_YEARS,
+    month_selection,
+    neutral_by_day,
+    NEUTRAL_RANGE_C,
+    screen_days,
+    season_lengths,
+    season_year,
+    _slope,
+    track_state_by_day,
+    Trend,
+    WARMING_LIMIT_K,
+    YEAR_MIN_COVERAGE,
+    _ymd,
+)
+from trackplan.screening_tables import (  # noqa: F401
+    annual_frame,
+    _day_json,
+    FLAGGED_COLUMNS,
+    flagged_frame,
+    options_json,
+    rank_key,
+    section_json,
+)
 
 
 # --------------------------------------------------------------------------
@@ -499,7 +174,7 @@ def parse_date(text: str, where: str) -> dt.date:
         raise InputError(f"cannot read {text!r} as a date; write YYYY-MM-DD (e.g. 2019-06-14)", where) from None
 
 
-def parse_months(text: str, where: str = "--months") -> tuple[int, int]:
+def parse_months(text: str, where: str | None = None) -> tuple[int, int]:
     """A month range ``M1-M2`` (1-12, inclusive, may wrap: ``11-2``) or one month ``M``."""
     parts = str(text).strip().split("-")
     try:
@@ -545,9 +220,9 @@ class ScreenOptions:
         from trackplan.seasons import SEASON_MONTHS
 
         if self.season is not None and self.season not in SEASON_MONTHS:
-            raise InputError(f"unknown season {self.season!r}; accepted: {', '.join(SEASON_MONTHS)}", "--season")
+            raise InputError(f"unknown season {self.season!r}; accepted: {', '.join(SEASON_MONTHS)}", field="season")
         if self.season is not None and self.months is not None:
-            raise InputError("give --season or --months, not both", "--season/--months")
+            raise InputError("give a season or a month range, not both", field="season/months")
         if self.start is not None and self.end is not None and self.start > self.end:
             raise InputError(f"the first day {self.start.isoformat()} is after the last day {self.end.isoformat()}",
                              field="from/to")
@@ -653,6 +328,7 @@ class SectionScreen:
     warnings: list = field(default_factory=list)
     climate_path: object = None  # pathlib.Path of the record
     inputs: dict = field(default_factory=dict)  # how the record was read: tz, time_step
+    replay_note: str | None = None  # the note (also in notes) that days before the neutral date were replayed
 
     @property
     def complete_years(self) -> int:
@@ -826,7 +502,7 @@ class Screener:
                 raise InputError(
                     f"nothing to screen: the climate record covers {first.isoformat()} to {last.isoformat()}"
                     + ("" if months is None else f", months {months[0]}-{months[1]}")
-                    + "; widen --from/--to or --months", "--from/--to")
+                    + "; widen the dates screened (from, to) or the months", f"{where} climate")
             sy = season_year(y[sel], m[sel], months)
             groups = np.unique(sy, return_inverse=True)
             self._calendars[ckey] = (idx, sel, dates_all[sel], (dates_all[sel] - _EPOCH).astype(np.int64), sy,
@@ -853,7 +529,7 @@ class Screener:
                 record_last=last,
                 typical_year=bool(meta.get("typical_year")),
                 station=station,
-                warnings=tuple(meta.get("warnings", [])) + tuple(daily.attrs.get("warnings", [])) + season_warn,
+                warnings=tuple(notices.merge(meta.get("warnings"), daily.attrs.get("warnings"), season_warn)),
                 inputs={"tz": meta.get("tz"), "time_step": meta.get("time_step")},
                 groups=groups,
                 season_days=season_days,
@@ -898,6 +574,7 @@ class Screener:
                                  f"({view.record_last.isoformat()}){extra}", f"{where} events")
         day = view.day
         notes = []
+        replay_note = None
         if o.neutral_override_C is not None:
             neutral = np.full(day.shape, float(o.neutral_override_C))
             notes.append(f"what-if: neutral temperature {o.neutral_override_C:.1f} degC on every day "
@@ -910,9 +587,10 @@ class Screener:
             first_change = min([c[0] for c in changes], default=None)
             if nd is not None and view.dates[0] < np.datetime64(nd, "D") and (
                     first_change is None or view.day[0] < first_change):
-                notes.append(f"days before the neutral date {nd.isoformat()} are screened with the recorded "
-                             f"neutral temperature {section.neutral_temperature_C:.1f} degC (a replay of the "
-                             "climate on the section as recorded)")
+                replay_note = (f"days before the neutral date {nd.isoformat()} are screened with the recorded "
+                               f"neutral temperature {section.neutral_temperature_C:.1f} degC (a replay of the "
+                               "climate on the section as recorded)")
+                notes.append(replay_note)
         if o.warming_K:
             notes.append(f"what-if: rail temperatures shifted by {o.warming_K:+.1f} K on every day")
 
@@ -942,11 +620,12 @@ class Screener:
         st, A = section.steel, section.profile.area_m2
         r = self.resistance(section)
         heat_neutral = neutral - section.drift_allowance_K
-        days = screen_days(view.rail_max_C, view.rail_min_C, heat_neutral, neutral, allowable, critical,
-                           st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m, section.tension_stress_limit_Pa,
-                           o.watch_fraction)
-        cold_limit = cold_limit_rise_K(st.E_Pa, A, st.alpha_per_K, r, section.gap_limit_m,
-                                       section.tension_stress_limit_Pa)
+        cold = dict(E_Pa=st.E_Pa, area_m2=A, alpha_per_K=st.alpha_per_K, resistance_N_per_m=r,
+                    gap_limit_m=section.gap_limit_m, tension_stress_limit_Pa=section.tension_stress_limit_Pa)
+        days = screen_days(view.rail_max_C, view.rail_min_C, heat_neutral_C=heat_neutral, cold_neutral_C=neutral,
+                           allowable_rise_K=allowable, critical_rise_K=critical, **cold,
+                           watch_fraction=o.watch_fraction)
+        cold_limit = cold_limit_rise_K(**cold)
         summary = summarise_days(section.id, section.name, view.dates, view.years, view.season_days, days,
                                  view.rail_max_C, view.rail_min_C, heat_neutral, neutral, allowable, cold_limit,
                                  view.typical_year, view.groups)
@@ -967,6 +646,7 @@ class Screener:
             warnings=list(view.warnings),
             climate_path=section.climate_path,
             inputs=dict(view.inputs),
+            replay_note=replay_note,
         )
 
     def screen_all(self, sections, progress=None, engine=None) -> ScreenResult:
@@ -990,138 +670,5 @@ class Screener:
 
         out = map_record_groups(work, sections, progress, engine)
         results = [out[i] for i in range(len(sections)) if isinstance(out.get(i), SectionScreen)]
-        problems = [out[i] for i in sorted(out) if isinstance(out[i], InputError)]
+        problems = [out[i] for i in sorted(out) if isinstance(out[i], TrackplanError)]
         return ScreenResult(self.options, results, problems)
-
-
-# --------------------------------------------------------------------------
-# Tables for files and JSON (read the same objects as the terminal)
-# --------------------------------------------------------------------------
-
-FLAGGED_COLUMNS = ("section", "date", "level", "rail_temperature_C", "neutral_temperature_C", "rise_K",
-                   "allowable_rise_K")
-
-
-def flagged_frame(result: ScreenResult):
-    """Every flagged day of every section (columns :data:`FLAGGED_COLUMNS`)."""
-    import pandas as pd
-
-    secs = result.sections
-    if not secs:
-        return pd.DataFrame(columns=list(FLAGGED_COLUMNS))
-    n = [len(s.flagged) for s in secs]
-    cat = lambda name: np.concatenate([getattr(s.flagged, name) for s in secs])
-    ids = pd.Categorical.from_codes(np.repeat(np.arange(len(secs)), n), [s.id for s in secs])
-    return pd.DataFrame({
-        "section": ids,
-        # datetime64 at midnight: written as YYYY-MM-DD
-        "date": cat("date").astype("datetime64[s]"),
-        "level": pd.Categorical.from_codes(cat("level_code"), list(FLAG_NAMES)),
-        "rail_temperature_C": np.round(cat("rail_temperature_C"), 2),
-        "neutral_temperature_C": np.round(cat("neutral_temperature_C"), 2),
-        "rise_K": np.round(cat("rise_K"), 2),
-        "allowable_rise_K": np.round(cat("allowable_rise_K"), 2),
-    })
-
-
-def annual_frame(result: ScreenResult):
-    """Per-section, per-year counts (one row per section and year)."""
-    import pandas as pd
-
-    parts = []
-    for s in result.sections:
-        a = s.annual
-        parts.append(pd.DataFrame({
-            "section": np.full(a.year.size, s.id, dtype=object),
-            "year": a.year,
-            "season_days": a.season_days,
-            "screened_days": a.screened_days,
-            "missing_days": a.missing_days,
-            "watch_days": a.watch_days,
-            "restrict_days": a.restrict_days,
-            "critical_days": a.critical_days,
-            "cold_days": a.cold_days,
-            "complete": a.complete,
-        }))
-    if not parts:
-        return pd.DataFrame(columns=["section", "year", "season_days", "screened_days", "missing_days",
-                                     "watch_days", "restrict_days", "critical_days", "cold_days", "complete"])
-    return pd.concat(parts, ignore_index=True)
-
-
-def _day_json(d: Day | None) -> dict | None:
-    if d is None:
-        return None
-    # on the cold side the limit is a (negative) rise at which tension or the break gap reaches its limit
-    limit_key = "cold_limit_rise_K" if d.side == "cold" else "allowable_rise_K"
-    return {"date": d.date.isoformat(), "side": d.side, "level": d.level, "rail_temperature_C": d.rail_temperature_C,
-            "neutral_temperature_C": d.neutral_temperature_C, "rise_K": d.rise_K,
-            limit_key: d.allowable_rise_K, "margin_K": d.margin_K}
-
-
-def section_json(s: SectionScreen) -> dict:
-    """JSON object of one section (SI, units in key names)."""
-    t = s.trend
-    return {
-        "id": s.id,
-        "name": s.name,
-        "station": s.station,
-        "months": list(s.months),
-        "first_date": s.first_date.isoformat(),
-        "last_date": s.last_date.isoformat(),
-        "screened_days": s.screened_days,
-        "missing_days": s.missing_days,
-        "complete_years": s.complete_years,
-        "heat_days_by_level": dict(s.heat_days_by_level),
-        "cold_days": s.cold_days,
-        "days_per_year": {lev: s.days_per_year(lev) for lev in LEVELS + (COLD_LEVEL,)},
-        "worst_day": _day_json(s.worst_day),
-        "worst_cold_day": _day_json(s.worst_cold_day),
-        "trend": {
-            "heat_days_per_decade": t.heat_days_per_decade,
-            "heat_days_per_decade_se": t.heat_days_per_decade_se,
-            "restrict_days_per_decade": t.restrict_days_per_decade,
-            "cold_days_per_decade": t.cold_days_per_decade,
-            "years_used": t.years_used,
-            "note": t.note,
-        },
-        "allowable_rise_K": s.allowable_rise_K,
-        "critical_rise_K": s.critical_rise_K if math.isfinite(s.critical_rise_K) else None,
-        "critical_basis": s.critical_basis,
-        "response": s.response,
-        "heat_neutral_temperature_C": s.heat_neutral_temperature_C,
-        "cold_neutral_temperature_C": s.cold_neutral_temperature_C,
-        "drift_allowance_K": s.drift_allowance_K,
-        "cold_limit_rise_K": s.cold_limit_rise_K,
-        "disturbed_days": s.disturbed_days,
-        "annual": [
-            {"year": int(s.annual.year[i]), "season_days": int(s.annual.season_days[i]),
-             "screened_days": int(s.annual.screened_days[i]), "missing_days": int(s.annual.missing_days[i]),
-             "watch_days": int(s.annual.watch_days[i]), "restrict_days": int(s.annual.restrict_days[i]),
-             "critical_days": int(s.annual.critical_days[i]), "cold_days": int(s.annual.cold_days[i]),
-             "complete": bool(s.annual.complete[i])}
-            for i in range(s.annual.year.size)
-        ],
-        "notes": list(s.notes),
-        "inputs": dict(s.inputs),
-        "warnings": notices.to_json(s.warnings),
-    }
-
-
-def options_json(o: ScreenOptions) -> dict:
-    return {
-        "from_date": o.start.isoformat() if o.start else None,
-        "to_date": o.end.isoformat() if o.end else None,
-        "months": list(o.months) if o.months else None,
-        "season": o.season,
-        "warming_K": o.warming_K,
-        "neutral_override_C": o.neutral_override_C,
-        "watch_fraction": o.watch_fraction,
-    }
-
-
-def rank_key(s: SectionScreen) -> tuple:
-    """Worst first: most critical, then restrict, then watch days; then the smallest worst-day margin."""
-    h = s.heat_days_by_level
-    m = s.worst_day.margin_K if s.worst_day is not None else math.inf
-    return (-h["critical"], -h["restrict"], -h["watch"], -s.cold_days, m)

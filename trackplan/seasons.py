@@ -30,7 +30,7 @@ def hemisphere(latitude_deg: float) -> str:
     return "north" if latitude_deg >= 0 else "south"
 
 
-def season_months(season: str, latitude_deg: float | None, where: str = "--season") -> tuple[int, int]:
+def season_months(season: str, latitude_deg: float | None, where: str | None = None) -> tuple[int, int]:
     """The month range of ``season`` (summer or winter) at a latitude [deg].
 
     Raises
@@ -40,7 +40,7 @@ def season_months(season: str, latitude_deg: float | None, where: str = "--seaso
     """
     key = str(season).strip().lower()
     if key not in SEASON_MONTHS:
-        raise InputError(f"unknown season {season!r}; accepted: {', '.join(SEASON_MONTHS)}", where)
+        raise InputError(f"unknown season {season!r}; accepted: {', '.join(SEASON_MONTHS)}", where, field="season")
     if latitude_deg is None:
         raise InputError("the hemisphere is not known (no latitude in the section or its climate record); "
                          "add latitude to the section, or give --months", where)

@@ -68,7 +68,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from trackplan import rails, thermal, units
+from trackplan import names, rails, thermal, units
 from trackplan.track import OVERRIDES
 from trackplan.errors import InputError, excerpt
 
@@ -124,8 +124,8 @@ MAX_EVENTS = 1_000
 MAX_ID_CHARS = 80
 MAX_TEXT_CHARS = 200
 
-#: Rail temperature methods (``trackplan.railtemp.METHODS`` and ``auto``; kept in step by a test).
-RAIL_TEMPERATURE_METHODS = ("auto", "heat-balance", "daily-extremes", "air-plus-30F")
+#: Rail temperature methods (``auto`` and the keys of ``trackplan.railtemp.METHODS``).
+RAIL_TEMPERATURE_METHODS = names.method_choices()
 #: Fields of the optional [network] table (descriptive only).
 NETWORK_FIELDS = ("name", "description", "operator")
 #: Fields a section must have (in the section or in [defaults]).

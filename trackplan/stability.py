@@ -146,6 +146,7 @@ from typing import Callable
 
 import numpy as np
 
+from trackplan import names
 from trackplan.errors import InputError
 from trackplan.track import (  # noqa: F401  (re-exported: the analysis's public names)
     DEFAULT_MISALIGNMENT_LENGTH_M, DEFAULT_MISALIGNMENT_M, DISPLACEMENT_LIMIT_M, ELEMENT_LENGTH_M, HALF_LENGTH_M,
@@ -279,7 +280,12 @@ CRITERIA: dict[str, Callable] = {
     "lower-critical": allowable_lower_critical,
     "upper-quarter": allowable_upper_quarter,
 }
-DEFAULT_CRITERION = "practice-calibrated"
+DEFAULT_CRITERION = names.DEFAULT_CRITERION
+
+#: The note of a result read from the curve of a perfectly straight track's trigger misalignment
+#: (one constant: a retraced result drops exactly this note).
+_TRIGGER_NOTE = (f"the allowable rise is read from the curve traced with the {TRIGGER_MISALIGNMENT_M * 1e3:g} mm "
+                 "trigger misalignment; real track has misalignments of 10-50 mm: give one for planning")
 
 
 # ----------------------------------------------------------------------------------------------
@@ -485,7 +491,7 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
     return dataclasses.replace(
         res, lower_critical_rise_K=lower, response=response, allowable_rise_K=float(allow), criterion=words,
         lower_critical_displacement_m=alt.lower_critical_displacement_m if lower is not None else None,
-        notes=tuple(n for n in res.notes if not n.startswith("the allowable rise is read from the curve traced"))
+        notes=tuple(n for n in res.notes if n != _TRIGGER_NOTE)
         + (note,))
 
 
@@ -604,8 +610,7 @@ def _solve_traced(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERIO
         lower = upper
     allow, words = CRITERIA[criterion](min(upper, upper_traced), lower, rise_lim)
     if perfect:
-        notes.append(f"the allowable rise is read from the curve traced with the {TRIGGER_MISALIGNMENT_M * 1e3:g} mm "
-                     "trigger misalignment; real track has misalignments of 10-50 mm: give one for planning")
+        notes.append(_TRIGGER_NOTE)
         if upper_traced >= MAX_RISE_K and lower is None and rise_lim is None:
             allow = float("nan")
             words = (f"no allowable rise: the perfect track shows no buckling up to the analysis limit of "

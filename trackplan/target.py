@@ -37,10 +37,9 @@ temperature management).
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
-from trackplan import units
+from trackplan import names, thermal, units
 from trackplan.errors import InputError
 
 #: Default position of the target in the feasible window (0 cold end, 1 hot end).
@@ -101,7 +100,7 @@ def heat_floor(design_max_C: float, allowable_rise_K: float, drift_allowance_K: 
 
 
 #: What an empty window gives way to: the first gets its constraint kept.
-PRIORITIES = ("heat", "cold")
+PRIORITIES = names.PRIORITIES
 
 
 def stress_ceiling(design_min_C: float, tension_stress_limit_Pa: float, E_Pa: float, alpha_per_K: float) -> float:
@@ -115,10 +114,11 @@ def gap_ceiling(design_min_C: float, gap_limit_m: float, E_Pa: float, area_m2: f
 
     Inverts ``g = E A (alpha dT)**2 / r`` for ``dT``.
     """
-    return design_min_C + math.sqrt(gap_limit_m * resistance_N_per_m / (E_Pa * area_m2)) / alpha_per_K
+    return design_min_C + float(thermal.gap_drop_K(gap_limit_m, E_Pa, area_m2, alpha_per_K, resistance_N_per_m))
 
 
 def recommend_neutral(
+    *,
     design_max_C: float,
     design_min_C: float,
     allowable_rise_K: float,
@@ -188,7 +188,7 @@ def recommend_neutral(
     ]
     if hi < lo:
         short = lo - hi
-        r_need = E_Pa * area_m2 * (alpha_per_K * (lo - design_min_C)) ** 2 / gap_limit_m
+        r_need = float(thermal.gap_resistance_N_per_m(gap_limit_m, lo - design_min_C, E_Pa, area_m2, alpha_per_K))
         openers = [
             P("a stronger track: {short} more allowable rise (consolidated ballast, full shoulders, heavier "
               "sleepers, or a verified higher lateral resistance)", (dT("short", short),)),
@@ -209,8 +209,11 @@ def recommend_neutral(
         if priority == "heat":
             target = lo + tol
             rng = (lo, lo + 2 * tol)
-            tension = E_Pa * alpha_per_K * (target - design_min_C)
-            gap = E_Pa * area_m2 * (alpha_per_K * (target - design_min_C)) ** 2 / resistance_N_per_m
+            cold = thermal.ColdSide(E_Pa=E_Pa, area_m2=area_m2, alpha_per_K=alpha_per_K,
+                                    resistance_N_per_m=resistance_N_per_m, gap_limit_m=gap_limit_m,
+                                    tension_stress_limit_Pa=tension_stress_limit_Pa)
+            tension = cold.tension_stress_Pa(target - design_min_C)
+            gap = cold.gap_m(target - design_min_C)
             risk = P("heat first: target {t}, laying range {a} to {b}, never below the heat floor; on the cold side at "
                      "{tmin} the thermal tension reaches {sig} (limit {slim}) and a break would open {gap} (limit "
                      "{glim}): inspect and patrol in cold weather, test for rail defects before winter, and plan "

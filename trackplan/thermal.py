@@ -70,12 +70,13 @@ STEEL_PRESETS: dict[str, Steel] = {
 }
 
 
-def steel_preset(name: str, where: str = "--steel") -> Steel:
-    """Look up a steel preset by name; unknown names list the valid ones."""
+def steel_preset(name: str, where: str | None = None) -> Steel:
+    """Look up a steel preset by name; unknown names list the valid ones (field ``steel``)."""
     try:
         return STEEL_PRESETS[name]
     except KeyError:
-        raise InputError(f"unknown steel preset {name!r}; accepted: {', '.join(STEEL_PRESETS)}", where) from None
+        raise InputError(f"unknown steel preset {name!r}; accepted: {', '.join(STEEL_PRESETS)}", where,
+                         field="steel") from None
 
 
 def default_steel(north_american: bool) -> Steel:
@@ -148,7 +149,7 @@ def free_expansion(length_m, rise_K, alpha_per_K: float):
 def _check_resistance(r):
     r = np.asarray(r, dtype=float)
     if np.any(~(r > 0)):
-        raise InputError("longitudinal resistance must be positive (e.g. '8 kN/m' per rail)", "--resistance")
+        raise InputError("longitudinal resistance must be positive (e.g. '8 kN/m' per rail)", field="resistance")
     return r
 
 
@@ -199,6 +200,83 @@ def pull_apart_gap(force_N, E_Pa: float, area_m2: float, resistance_N_per_m):
     P = np.asarray(force_N, dtype=float)
     gap = 2.0 * end_movement(P, E_Pa, area_m2, resistance_N_per_m)
     return np.where(P < 0, gap, 0.0)
+
+
+def gap_drop_K(gap_m, E_Pa: float, area_m2: float, alpha_per_K: float, resistance_N_per_m):
+    """Fall below neutral [K] at which a break opens ``gap_m``: the inverse of :func:`pull_apart_gap`.
+
+    Notes
+    -----
+    With ``P = E A alpha dT`` in ``g = P**2 / (E A r)``: ``dT = sqrt(g r / (E A)) / alpha``.
+
+    References
+    ----------
+    Esveld (2001), *Modern Railway Track*, ch. 7 (gap at a rail fracture).
+    """
+    return np.sqrt(np.asarray(gap_m, dtype=float) * resistance_N_per_m / (E_Pa * area_m2)) / alpha_per_K
+
+
+def gap_force_N(gap_m, E_Pa: float, area_m2: float, resistance_N_per_m):
+    """Tension force magnitude [N] at which a break opens ``gap_m``: ``|P| = sqrt(g E A r)``."""
+    return np.sqrt(np.asarray(gap_m, dtype=float) * E_Pa * area_m2 * resistance_N_per_m)
+
+
+def gap_resistance_N_per_m(gap_m: float, drop_K, E_Pa: float, area_m2: float, alpha_per_K: float):
+    """Longitudinal resistance [N/m] for which a fall ``drop_K`` below neutral opens at most ``gap_m``:
+    ``r = E A (alpha dT)**2 / g``."""
+    return E_Pa * area_m2 * (alpha_per_K * np.asarray(drop_K, dtype=float)) ** 2 / gap_m
+
+
+@dataclass(frozen=True, kw_only=True)
+class ColdSide:
+    """The cold-side group of a section: steel, rail area, longitudinal resistance and the two limits.
+
+    Built by keyword only, so that no two figures can be swapped unnoticed.
+
+    Attributes
+    ----------
+    E_Pa : float
+        Elastic modulus [Pa].
+    area_m2 : float
+        Rail cross-section area [m**2].
+    alpha_per_K : float
+        Thermal expansion coefficient [1/K].
+    resistance_N_per_m : float
+        Longitudinal resistance per rail [N/m].
+    gap_limit_m : float
+        Allowable pull-apart gap at a break [m].
+    tension_stress_limit_Pa : float
+        Allowable thermal tension stress [Pa].
+    """
+
+    E_Pa: float
+    area_m2: float
+    alpha_per_K: float
+    resistance_N_per_m: float
+    gap_limit_m: float
+    tension_stress_limit_Pa: float
+
+    def stress_drop_K(self) -> float:
+        """Fall below neutral [K] at which the tension stress reaches its limit: ``sigma_lim / (E alpha)``."""
+        return self.tension_stress_limit_Pa / (self.E_Pa * self.alpha_per_K)
+
+    def gap_drop_K(self) -> float:
+        """Fall below neutral [K] at which a break opens the gap limit (:func:`gap_drop_K`)."""
+        return float(gap_drop_K(self.gap_limit_m, self.E_Pa, self.area_m2, self.alpha_per_K,
+                                self.resistance_N_per_m))
+
+    def limit_drop_K(self) -> float:
+        """The largest fall below neutral [K] within both cold limits."""
+        return min(self.stress_drop_K(), self.gap_drop_K())
+
+    def gap_m(self, drop_K) -> float:
+        """Gap a break opens [m] after a fall ``drop_K`` [K] below neutral (:func:`pull_apart_gap`)."""
+        force = thermal_force(-abs(float(drop_K)), self.E_Pa, self.area_m2, self.alpha_per_K)
+        return float(pull_apart_gap(force, self.E_Pa, self.area_m2, self.resistance_N_per_m))
+
+    def tension_stress_Pa(self, drop_K) -> float:
+        """Tension stress magnitude [Pa] after a fall ``drop_K`` [K] below neutral: ``E alpha dT``."""
+        return self.E_Pa * self.alpha_per_K * abs(float(drop_K))
 
 
 def state(rise_K: float, tol_K: float = 1e-9) -> str:

@@ -20,7 +20,8 @@ from dataclasses import dataclass, fields
 from functools import lru_cache
 from importlib import resources
 
-from trackplan.errors import InputError
+from trackplan import ranges
+from trackplan.errors import InputError, ModelError
 
 # ----------------------------------------------------------------------------------------------
 # Constants of the method
@@ -45,14 +46,15 @@ MAX_RISE_K = 200.0
 ELEMENT_LENGTH_M = 0.5
 HALF_LENGTH_M = 40.0
 #: Smallest curve radius accepted [m].
-MIN_RADIUS_M = 100.0
+MIN_RADIUS_M = ranges.MODEL_LIMITS["radius"].lo
 
 
-class StabilityError(InputError):
+class StabilityError(ModelError):
     """The equilibrium curve could not be traced for these parameters.
 
-    Subclass of :class:`InputError` so that the command line reports it as a message (exit
-    code 2) and never as a traceback; the message says where the path following stopped.
+    A model error, not bad input: the command line reports it as a message (exit code 2)
+    and never as a traceback, a network run as a problem of the section; the message says
+    where the path following stopped.
     """
 
 
@@ -177,7 +179,7 @@ def check_input(inp: TrackStabilityInput, where: str = "track parameters") -> No
                 where,
             )
         _positive(inp.peak_displacement_m, "displacement at peak", where)
-        if inp.peak_displacement_m > 0.05:
+        if inp.peak_displacement_m > ranges.MODEL_LIMITS["peak_displacement"].hi:
             raise InputError(f"displacement at peak {inp.peak_displacement_m * 1e3:g} mm is beyond 50 mm; "
                              "push tests give a few mm up to about 12 mm", where)
         _positive(inp.limit_displacement_m, "limit displacement", where)
@@ -185,7 +187,7 @@ def check_input(inp: TrackStabilityInput, where: str = "track parameters") -> No
             raise InputError(
                 f"limit displacement {inp.limit_displacement_m * 1e3:g} mm must be beyond the displacement "
                 f"at peak {inp.peak_displacement_m * 1e3:g} mm", where)
-        if inp.limit_displacement_m > 0.5:
+        if inp.limit_displacement_m > ranges.MODEL_LIMITS["limit_displacement"].hi:
             raise InputError(f"limit displacement {inp.limit_displacement_m * 1e3:g} mm is beyond 500 mm; "
                              "push tests reach the limit resistance at 50-150 mm", where)
     if inp.longitudinal_resistance_N_per_m is not None:
@@ -198,10 +200,11 @@ def check_input(inp: TrackStabilityInput, where: str = "track parameters") -> No
                              "this analysis (plain line curves); give a radius of 100 m or more, or omit it for "
                              "tangent track", where)
     _positive(inp.misalignment_m, "misalignment", where, allow_zero=True)
-    if inp.misalignment_m > 0.5:
+    if inp.misalignment_m > ranges.MODEL_LIMITS["misalignment"].hi:
         raise InputError(f"misalignment {inp.misalignment_m * 1e3:g} mm is beyond 500 mm", where)
     _positive(inp.misalignment_length_m, "misalignment length", where)
-    if not 1.0 <= inp.misalignment_length_m <= 40.0:
+    lo, hi = ranges.MODEL_LIMITS["misalignment_length"].lo, ranges.MODEL_LIMITS["misalignment_length"].hi
+    if not lo <= inp.misalignment_length_m <= hi:
         raise InputError(f"misalignment length {inp.misalignment_length_m:g} m is outside 1-40 m", where)
     _positive(inp.torsional_resistance_N, "torsional resistance", where, allow_zero=True)
 

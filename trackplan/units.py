@@ -28,7 +28,7 @@ import re
 from dataclasses import dataclass
 from functools import lru_cache
 
-from trackplan.errors import InputError
+from trackplan.errors import InputError, UnitKindError
 
 # --------------------------------------------------------------------------
 # Kinds of quantity and their SI unit
@@ -315,7 +315,7 @@ def _via_pint(value: float, unit: str, kind: str, where: str | None) -> float:
         q = ureg.Quantity(value, unit)
         si = q.to(_PINT_CHECK_UNIT[kind])
     except pint.errors.DimensionalityError:
-        raise InputError(
+        raise UnitKindError(
             f"'{value:g} {unit}' is not a {kind.replace('_', ' ')}; accepted units: "
             + ", ".join(accepted_units(kind)),
             where,
@@ -513,7 +513,7 @@ def _example(kind: str) -> str:
 def display_unit(kind: str, system: str) -> str:
     """Unit (pint spelling) in which ``kind`` is shown in ``system``."""
     if system not in DISPLAY:
-        raise InputError(f"unknown unit system {system!r}; accepted: si, us", "--units")
+        raise InputError(f"unknown unit system {system!r}; accepted: {', '.join(UNIT_SYSTEMS)}", field="units")
     return DISPLAY[system][kind]
 
 

@@ -10,7 +10,8 @@ import typer
 from rich.markup import escape
 from rich.table import Table
 
-from trackplan import CAUTION, __version__, notices, units
+from trackplan import CAUTION, __version__, units
+from trackplan.assessment_tables import check_json
 from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
                                   command, console, emit_json, print_caution, wide_console)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
@@ -19,36 +20,6 @@ from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTE
                                    report_problems)
 
 _STYLE = {"act": "bold red", "watch": "yellow", "ok": "green"}
-
-
-def check_json(a) -> dict:
-    from trackplan.actions import section_action
-
-    c = a.check
-    action = section_action(a)
-    return {
-        "id": a.section.id,
-        "name": a.section.name,
-        "verdict": c.verdict,
-        "reasons": c.reasons,
-        "action": None if action is None else str(action),
-        "current_neutral_temperature_C": c.current_neutral_temperature_C,
-        "recorded_neutral_temperature_C": c.cold_neutral_temperature_C,
-        "neutral_entry_id": a.section.neutral_entry_id,
-        "design_max_rail_temperature_C": c.design_max_rail_temperature_C,
-        "design_min_rail_temperature_C": c.design_min_rail_temperature_C,
-        "max_compression_force_per_rail_kN": c.max_compression_force_per_rail_N / 1e3,
-        "heat_rise_K": c.heat_rise_K,
-        "allowable_rise_K": c.allowable_rise_K,
-        "heat_margin_K": c.heat_margin_K,
-        "max_tension_force_per_rail_kN": c.max_tension_force_per_rail_N / 1e3,
-        "max_tension_stress_MPa": c.max_tension_stress_Pa / 1e6,
-        "pull_apart_gap_mm": c.pull_apart_gap_m * 1e3,
-        "target_neutral_temperature_C": a.target.target_neutral_temperature_C,
-        "response": a.stability.response,
-        "inputs": {"tz": a.climate.tz, "time_step": a.climate.time_step},
-        "warnings": notices.to_json(a.climate.warnings),
-    }
 
 
 def print_checks(results, s: str, wide: bool = False) -> None:

@@ -1,8 +1,9 @@
 """Shared pieces of the command line: the app, error handling, JSON, units.
 
-* :func:`command` registers a subcommand behind the command boundary: an
-  :class:`InputError` (or an unusable file) becomes a one-line message on stderr
-  and exit code 2; anything unforeseen a plain "internal error" line, the details
+* :func:`command` registers a subcommand behind the command boundary: a
+  :class:`~trackplan.errors.TrackplanError` (bad input, an unusable file, or a
+  model that cannot give a number for the input) becomes a one-line message on
+  stderr and exit code 2; anything unforeseen a plain "internal error" line, the details
   in a file to report, and exit code 3. Never a traceback.
 * :func:`emit_json` prints one JSON object on stdout (SI, units in key names).
 * :func:`print_caution` prints the caution under a result a person may act on.
@@ -22,7 +23,7 @@ from rich.console import Console
 from typer.core import TyperGroup
 
 from trackplan import CAUTION, units
-from trackplan.errors import InputError
+from trackplan.errors import InputError, TrackplanError
 
 class _OneLineErrors(TyperGroup):
     """The command group, printing click's usage errors (unknown option, bad choice,
@@ -157,8 +158,8 @@ def print_error(exc: Exception) -> None:
     err_console.print(Text("error: ", style="bold red") + Text(str(exc)), highlight=False, soft_wrap=True)
 
 
-def fail(exc: InputError) -> None:
-    """Print an input error and exit with code 2."""
+def fail(exc: TrackplanError) -> None:
+    """Print an input or model error and exit with code 2."""
     print_error(exc)
     raise typer.Exit(2)
 
@@ -193,7 +194,7 @@ def _option_for(field: str | None) -> str | None:
     return "/".join(parts) if all(parts) else None
 
 
-def _locate(exc: InputError) -> InputError:
+def _locate(exc: TrackplanError) -> TrackplanError:
     """An error raised by a computation module names a field: put the command's option there."""
     if exc.field is not None and exc.where == exc.field:
         option = _option_for(exc.field)
@@ -264,7 +265,7 @@ def run_guarded(fn, *args, **kw):
     except Terminated:
         err_console.print("stopped (terminated); no output file was changed", highlight=False)
         raise typer.Exit(143)
-    except InputError as exc:
+    except TrackplanError as exc:  # bad input, or a model that cannot give a number for it
         fail(_locate(exc))
     except (typer.Exit, click.exceptions.Exit, click.exceptions.Abort, click.exceptions.ClickException):
         raise

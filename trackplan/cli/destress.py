@@ -233,7 +233,7 @@ def destress_cmd(
     at, echo_at = _opt(at_mark, "at_mark", "length", job_data, system)
     site_name = _opt(site, "site", None, job_data, system)[0]
     weld_text = _opt(weld, "weld", None, job_data, system)[0]
-    w = destressing.weld_allowance(weld_text) if weld_text is not None else None
+    w = destressing.weld_allowance(weld_text, "--weld") if weld_text is not None else None
     if s == "us":  # US practice values as defaults, not converted SI ones
         w = US_DEFAULTS["weld"] if w is None else w
         mpl = US_DEFAULTS["max_pull_m"] if mpl is None else mpl

@@ -8,6 +8,7 @@ from pathlib import Path
 import typer
 
 from trackplan.cli.common import err_console, print_error, progress_enabled
+from trackplan import names
 from trackplan.errors import InputError
 
 SECTIONS_ARG = typer.Argument(..., help="Section file (TOML): [defaults] and one [sections.ID] table per welded section.")
@@ -54,10 +55,11 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
 
     if return_period is not None and not 2 <= return_period <= 1000:
         raise InputError(f"{return_period:g} years is outside 2..1000", "--return-period")
-    if distribution not in ("gumbel", "gev"):
-        raise InputError(f"unknown distribution {distribution!r}; accepted: gumbel, gev", "--distribution")
-    if priority not in ("heat", "cold"):
-        raise InputError(f"unknown priority {priority!r}; accepted: heat, cold", "--priority")
+    if distribution not in names.DISTRIBUTIONS:
+        raise InputError(f"unknown distribution {distribution!r}; accepted: {', '.join(names.DISTRIBUTIONS)}",
+                         "--distribution")
+    if priority not in names.PRIORITIES:
+        raise InputError(f"unknown priority {priority!r}; accepted: {', '.join(names.PRIORITIES)}", "--priority")
     sf = read_sections(path, strict, register)
     assessor = Assessor(return_period, distribution, priority, columns.parse_options(column), tz, allow_short)
     from trackplan.engine import engine_for

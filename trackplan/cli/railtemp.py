@@ -11,7 +11,7 @@ from rich.markup import escape
 from rich.panel import Panel
 from rich.table import Table
 
-from trackplan import CAUTION, rails, units
+from trackplan import CAUTION, names, rails, units
 from trackplan.cli.common import (
     ALLOW_SHORT_OPTION,
     COLUMN_OPTION,
@@ -27,9 +27,9 @@ from trackplan.cli.common import (
 )
 from trackplan.errors import InputError
 
-#: Method names offered on the command line (kept in step with trackplan.railtemp.METHODS by a test).
-METHOD_CHOICES = ("auto", "heat-balance", "daily-extremes", "air-plus-30F")
-DISTRIBUTION_CHOICES = ("gumbel", "gev")
+#: Method names offered on the command line (``auto`` and the keys of trackplan.railtemp.METHODS).
+METHOD_CHOICES = names.method_choices()
+DISTRIBUTION_CHOICES = names.DISTRIBUTIONS
 
 
 def _angle(text: Optional[str], option: str, lo: float, hi: float, what: str) -> Optional[float]:
@@ -118,9 +118,9 @@ def railtemp_cmd(
     name = railtemp.resolve_method(method, meta, df)
     phase(f"rail temperatures ({name}, {len(df):,} time steps)")
     hourly = None
-    if name == "heat-balance":
+    if railtemp.METHODS[name].hourly is not None:  # a method with an hourly series: prepare the sun once
         prep = railtemp.prepare_solar(df, meta, site)
-        hourly = railtemp.rail_temperature_hourly(df, meta, profile, site, prepared=prep)
+        hourly = railtemp.METHODS[name].hourly(df, meta, profile, site, prepared=prep)
         daily = railtemp.daily_rail_extremes(df, meta, profile, site, method=name, prepared=prep)
     else:
         daily = railtemp.daily_rail_extremes(df, meta, profile, site, method=name)
@@ -128,9 +128,9 @@ def railtemp_cmd(
     phase(f"annual extremes and {distribution} fit")
     design = extremes.design_extremes(daily, return_period, distribution, typical_year=typical,
                                       years=None if typical else meta.get("years"), allow_short=allow_short)
-    warnings = list(meta.get("warnings") or []) + design.warnings
-    if lat is not None and lon is not None:  # the record's lack of coordinates is made good by --lat/--lon
-        warnings = [w for w in warnings if "no latitude/longitude" not in w]
+    # the record's lack of coordinates is made good by --lat/--lon
+    made_good = ("no_coordinates",) if lat is not None and lon is not None else ()
+    warnings = notices.merge(meta.get("warnings"), daily.attrs.get("warnings"), design.warnings, drop=made_good)
     station = meta.get("station") or Path(file).name
 
     if out is not None:

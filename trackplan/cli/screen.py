@@ -31,7 +31,7 @@ def build_options(date_from, date_to, months, warming, neutral_override, watch_f
 
     start = screening.parse_date(date_from, "--from") if date_from is not None else None
     end = screening.parse_date(date_to, "--to") if date_to is not None else None
-    mo = screening.parse_months(months) if months is not None else None
+    mo = screening.parse_months(months, "--months") if months is not None else None
     warm, _ = parse_option(warming, "temperature_difference", "--warming", system, required=False)
     tn, _ = parse_option(neutral_override, "temperature", "--neutral-override", system, required=False)
     return screening.ScreenOptions(start=start, end=end, months=mo, warming_K=warm or 0.0,
@@ -169,8 +169,8 @@ def print_summary(result, s: str, wide: bool = False) -> None:
     for station, ids, w in grouped_warnings((r.station, r.id, w) for r in secs for w in r.warnings):
         console.print(f"[yellow]Warning[/] ({station}; {', '.join(ids)}): {escape(units.text_in(w, s))}",
                       highlight=False)
-    notes = sorted({n for r in secs for n in r.notes if not n.startswith("days before the neutral date")})
-    replay = sum(any(n.startswith("days before the neutral date") for n in r.notes) for r in secs)
+    notes = sorted({n for r in secs for n in r.notes if n != r.replay_note})
+    replay = sum(r.replay_note is not None for r in secs)
     o = result.options
     console.print(
         f"Levels: watch from {o.watch_fraction:.0%} of the allowable rise, restrict from the allowable rise, critical "

@@ -8,7 +8,7 @@ from typing import Optional
 import typer
 from rich.table import Table
 
-from trackplan import CAUTION, rails, thermal, units
+from trackplan import CAUTION, names, rails, thermal, track, units
 from trackplan.cli.common import (
     JSON_OPTION,
     UNITS_OPTION,
@@ -22,13 +22,13 @@ from trackplan.cli.common import (
 )
 from trackplan.errors import InputError
 
-# Preset names for --help (read from the data file by trackplan.stability; listed here so that
-# --help needs no numpy). The command checks them against the presets.
-_SLEEPERS = "timber, steel, concrete"
-_BALLAST = "consolidated, partial, disturbed"
-_SHOULDER = "full, reduced"
-_LOADING = "freight-22.5t (default), freight-25t, freight-286k, passenger-coach, locomotive-bo-bo, none"
-_CRITERIA = "practice-calibrated (default), lower-critical, upper-quarter"
+# Preset and registry names for --help, from the data files and trackplan.names (no numpy at
+# start-up). The command checks the values given against the presets and registries.
+_SLEEPERS = ", ".join(track.sleeper_types())
+_BALLAST = ", ".join(track.ballast_states())
+_SHOULDER = ", ".join(track.shoulder_types())
+_LOADING = names.listing(names.loading_names(), names.DEFAULT_LOADING)
+_CRITERIA = names.listing(names.CRITERIA, names.DEFAULT_CRITERION)
 
 
 def _positive_option(text, kind, option, system, allow_zero=False):
@@ -102,10 +102,10 @@ def stability_cmd(
     lateral_stiffness: Optional[str] = typer.Option(
         None, "--lateral-stiffness", help="Use a linear (Winkler) lateral foundation of this modulus instead of the peak/limit law, e.g. '2000 kN/m**2'."),
     sleeper_spacing: Optional[str] = typer.Option(None, "--sleeper-spacing", help="Sleeper spacing, e.g. '0.6 m' (default: the sleeper type's reference spacing); scales the preset resistances."),
-    loading: str = typer.Option("freight-22.5t", "--loading", help=f"Train standing on the track (its axles press the track down, it lifts between bogies): {_LOADING}."),
+    loading: str = typer.Option(names.DEFAULT_LOADING, "--loading", help=f"Train standing on the track (its axles press the track down, it lifts between bogies): {_LOADING}."),
     axle_load: Optional[str] = typer.Option(None, "--axle-load", help="Override the axle load of the train, e.g. '250 kN' (at most 50 t, 490 kN)."),
     support_modulus: Optional[str] = typer.Option(None, "--support-modulus", help="Override the track support modulus per rail, e.g. '30 MPa' (N/mm per mm of rail)."),
-    criterion: str = typer.Option("practice-calibrated", "--criterion", help=f"Allowable-rise criterion: {_CRITERIA}."),
+    criterion: str = typer.Option(names.DEFAULT_CRITERION, "--criterion", help=f"Allowable-rise criterion: {_CRITERIA}."),
     profiles_file: Optional[Path] = typer.Option(None, "--profiles-file", help="TOML file with profiles of your own."),
     out: Optional[Path] = typer.Option(None, "--out", help="Folder for the PNG of the curve (stability_curve.png) and the curve as CSV."),
     system: UnitSystem = UNITS_OPTION,

@@ -8,48 +8,13 @@ from typing import Optional
 import typer
 from rich.table import Table
 
-from trackplan import CAUTION, notices, units
+from trackplan import CAUTION, units
+from trackplan.assessment_tables import target_json
 from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
                                   command, console, emit_json, print_caution)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
                                    SECTIONS_ARG, STRICT_OPTION, load_and_assess, print_data_warnings, print_records,
                                    report_problems)
-
-
-def target_json(a) -> dict:
-    """JSON row of one section (SI, units in keys)."""
-    t = a.target
-    return {
-        "id": a.section.id,
-        "name": a.section.name,
-        "target_neutral_temperature_C": t.target_neutral_temperature_C,
-        "laying_range_C": list(t.laying_range_C) if t.laying_range_C else None,
-        "feasible_window_C": list(t.feasible_window_C) if t.feasible_window_C else None,
-        "feasible": t.feasible,
-        "narrow_window": t.narrow,
-        "heat_floor_C": t.heat_floor_C,
-        "cold_ceiling_C": t.cold_ceiling_C,
-        "governing_cold_limit": t.governing_cold,
-        "shortfall_K": t.shortfall_K,
-        "priority": t.priority,
-        "accepted_risk": None if t.risk is None else str(t.risk),
-        "design_max_rail_temperature_C": a.climate.design_max_C,
-        "design_min_rail_temperature_C": a.climate.design_min_C,
-        "design_basis": a.climate.design.design_basis,
-        "return_period_years": a.climate.design.return_period_years,
-        "allowable_rise_K": a.allowable_rise_K,
-        "drift_allowance_K": a.section.drift_allowance_K,
-        "recorded_neutral_temperature_C": a.section.latest_neutral_temperature_C,
-        "neutral_entry_id": a.section.neutral_entry_id,
-        "explanation": [str(x) for x in t.explanation],
-        "would_open_window": [str(x) for x in t.openers],
-        "regional_practice": [
-            {"name": r.name, "neutral_C": list(r.neutral_C) if r.neutral_C else None, "note": r.note, "source": r.source}
-            for r in a.practice
-        ],
-        "inputs": {"tz": a.climate.tz, "time_step": a.climate.time_step},
-        "warnings": notices.to_json(a.climate.warnings),
-    }
 
 
 def print_targets(results, s: str) -> None:

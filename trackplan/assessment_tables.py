@@ -1,0 +1,138 @@
+"""A network assessment's results as JSON and CSV rows: one builder of each figure's key and value.
+
+Rendering only: these read the result objects of :mod:`trackplan.assess` (a
+``SectionAssessment``: the section, its climate, stability, target and check)
+and compute nothing new. Every figure the check's JSON and its CSV share is
+built once, by :func:`check_figures`, with the names of docs/glossary.md (SI,
+the unit in the key).
+"""
+
+from __future__ import annotations
+
+from trackplan import notices
+
+
+def check_figures(a) -> dict:
+    """The figures of one section's check, by glossary name (SI, unit in the key)."""
+    c = a.check
+    return {
+        "design_max_rail_temperature_C": c.design_max_rail_temperature_C,
+        "design_min_rail_temperature_C": c.design_min_rail_temperature_C,
+        "recorded_neutral_temperature_C": c.cold_neutral_temperature_C,
+        "current_neutral_temperature_C": c.current_neutral_temperature_C,
+        "heat_rise_K": c.heat_rise_K,
+        "allowable_rise_K": c.allowable_rise_K,
+        "heat_margin_K": c.heat_margin_K,
+        "max_compression_force_per_rail_kN": c.max_compression_force_per_rail_N / 1e3,
+        "max_tension_force_per_rail_kN": c.max_tension_force_per_rail_N / 1e3,
+        "max_tension_stress_MPa": c.max_tension_stress_Pa / 1e6,
+        "pull_apart_gap_mm": c.pull_apart_gap_m * 1e3,
+        "gap_limit_mm": c.gap_limit_m * 1e3,
+        "target_neutral_temperature_C": a.target.target_neutral_temperature_C,
+    }
+
+
+def check_json(a) -> dict:
+    """JSON object of one section's check (``trackplan check --json``)."""
+    from trackplan.actions import section_action
+
+    c, f = a.check, check_figures(a)
+    action = section_action(a)
+    keys = ("current_neutral_temperature_C", "recorded_neutral_temperature_C")
+    out = {
+        "id": a.section.id,
+        "name": a.section.name,
+        "verdict": c.verdict,
+        "reasons": c.reasons,
+        "action": None if action is None else str(action),
+        **{k: f[k] for k in keys},
+        "neutral_entry_id": a.section.neutral_entry_id,
+    }
+    keys = ("design_max_rail_temperature_C", "design_min_rail_temperature_C", "max_compression_force_per_rail_kN",
+            "heat_rise_K", "allowable_rise_K", "heat_margin_K", "max_tension_force_per_rail_kN",
+            "max_tension_stress_MPa", "pull_apart_gap_mm", "target_neutral_temperature_C")
+    out.update({k: f[k] for k in keys})
+    out.update({
+        "response": a.stability.response,
+        "inputs": {"tz": a.climate.tz, "time_step": a.climate.time_step},
+        "warnings": notices.to_json(a.climate.warnings),
+    })
+    return out
+
+
+def target_json(a) -> dict:
+    """JSON object of one section's target (``trackplan target --json``; SI, units in keys)."""
+    t = a.target
+    return {
+        "id": a.section.id,
+        "name": a.section.name,
+        "target_neutral_temperature_C": t.target_neutral_temperature_C,
+        "laying_range_C": list(t.laying_range_C) if t.laying_range_C else None,
+        "feasible_window_C": list(t.feasible_window_C) if t.feasible_window_C else None,
+        "feasible": t.feasible,
+        "narrow_window": t.narrow,
+        "heat_floor_C": t.heat_floor_C,
+        "cold_ceiling_C": t.cold_ceiling_C,
+        "governing_cold_limit": t.governing_cold,
+        "shortfall_K": t.shortfall_K,
+        "priority": t.priority,
+        "accepted_risk": None if t.risk is None else str(t.risk),
+        "design_max_rail_temperature_C": a.climate.design_max_C,
+        "design_min_rail_temperature_C": a.climate.design_min_C,
+        "design_basis": a.climate.design.design_basis,
+        "return_period_years": a.climate.design.return_period_years,
+        "allowable_rise_K": a.allowable_rise_K,
+        "drift_allowance_K": a.section.drift_allowance_K,
+        "recorded_neutral_temperature_C": a.section.latest_neutral_temperature_C,
+        "neutral_entry_id": a.section.neutral_entry_id,
+        "explanation": [str(x) for x in t.explanation],
+        "would_open_window": [str(x) for x in t.openers],
+        "regional_practice": [
+            {"name": r.name, "neutral_C": list(r.neutral_C) if r.neutral_C else None, "note": r.note, "source": r.source}
+            for r in a.practice
+        ],
+        "inputs": {"tz": a.climate.tz, "time_step": a.climate.time_step},
+        "warnings": notices.to_json(a.climate.warnings),
+    }
+
+
+def check_rows(assessments) -> list[dict]:
+    """One flat CSV row of figures per assessed section (SI, units in column names)."""
+    from trackplan.actions import section_action
+
+    rows = []
+    for a in assessments:
+        s, c, t, f = a.section, a.check, a.target, check_figures(a)
+        action = section_action(a)
+        row = {
+            "section": s.id,
+            "name": s.name,
+            "location": s.location,
+            "verdict": c.verdict,
+            "reasons": " | ".join(c.reasons),
+            "action": "" if action is None else str(action),
+            "rail": s.profile.name,
+            "sleeper": s.sleeper,
+            "ballast": s.ballast,
+            "curve": s.curve_label,
+            "station": a.climate.station,
+            "rail_temperature_method": a.climate.method,
+            "design_basis": a.climate.design.design_basis,
+            "return_period_years": a.climate.design.return_period_years,
+        }
+        row.update({k: f[k] for k in ("design_max_rail_temperature_C", "design_min_rail_temperature_C",
+                                      "recorded_neutral_temperature_C")})
+        row["drift_allowance_K"] = s.drift_allowance_K
+        row.update({k: f[k] for k in ("current_neutral_temperature_C", "heat_rise_K")})
+        row["upper_critical_rise_K"] = a.stability.upper_critical_rise_K
+        row["lower_critical_rise_K"] = a.stability.lower_critical_rise_K
+        row.update({k: f[k] for k in ("allowable_rise_K", "heat_margin_K", "max_compression_force_per_rail_kN",
+                                      "max_tension_force_per_rail_kN", "max_tension_stress_MPa", "pull_apart_gap_mm",
+                                      "gap_limit_mm")})
+        row["longitudinal_resistance_kN_per_m"] = a.longitudinal_resistance_N_per_m / 1e3
+        row["target_neutral_temperature_C"] = f["target_neutral_temperature_C"]
+        row["laying_range_low_C"] = t.laying_range_C[0] if t.laying_range_C else None
+        row["laying_range_high_C"] = t.laying_range_C[1] if t.laying_range_C else None
+        row["feasible"] = t.feasible
+        rows.append(row)
+    return rows
