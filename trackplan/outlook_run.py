@@ -23,7 +23,7 @@ import math
 import time
 from dataclasses import dataclass, field
 
-from trackplan.errors import InputError
+from trackplan.errors import InputError, TrackplanError
 from trackplan import outlook as core
 
 #: Sections of one adjusted run handled by one task.
@@ -176,8 +176,8 @@ def run_outlook(sections, projections_dir, options: OutlookOptions, engine) -> O
         good.append(s)
     try:
         assessor.prepare_stability(good)
-    except InputError:
-        pass
+    except TrackplanError:
+        pass  # a section whose track cannot be solved is reported below
     specs = {}
     for s in sections:
         where = f"{s.file.name} [sections.{s.id}]"
@@ -188,7 +188,7 @@ def run_outlook(sections, projections_dir, options: OutlookOptions, engine) -> O
         meta = {"latitude_deg": obs.latitude_deg, "longitude_deg": obs.longitude_deg}
         try:
             specs[s.id] = section_spec(s, assessor, meta, options)
-        except InputError as exc:
+        except TrackplanError as exc:  # bad input or a model that gives no number: a problem of the section
             problems.append(InputError(exc.bare_message, f"{where} ({exc.where})" if exc.where else where))
     t_spec = time.perf_counter()
     # 3. cells and adjust tasks, once per (record, cell, run)

@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from trackplan import risk
-from trackplan.errors import InputError
+from trackplan.errors import InputError, TrackplanError
 
 #: Seasons by name: ``summer`` at each station's hemisphere (:mod:`trackplan.seasons`), ``year``
 #: the whole year; or a month range ``M-M``.
@@ -277,7 +277,7 @@ class RiskRunner:
                     continue
                 try:
                     self.surrogate(self.assessor.track_input(sec, ballast))
-                except InputError:
+                except TrackplanError:
                     continue  # reported when the section itself is run
 
     @staticmethod
@@ -299,13 +299,13 @@ class RiskRunner:
             for i in indices:
                 try:
                     part[i] = self.section_risk(sections[i])
-                except InputError as exc:
+                except TrackplanError as exc:  # bad input or a model that gives no number: a problem of the section
                     part[i] = exc
             return part
 
         got = map_record_groups(work, sections, progress)
         out = [got[i] for i in range(len(sections)) if isinstance(got.get(i), SectionRisk)]
-        problems = [got[i] for i in sorted(got) if isinstance(got[i], InputError)]
+        problems = [got[i] for i in sorted(got) if isinstance(got[i], TrackplanError)]
         errs = [s.measured_error for s in self._surrogates.values() if s.measured_error is not None]
         out.sort(key=lambda r: (-r.probability, r.id))
         overs = [s.measured_overstatement for s in self._surrogates.values() if s.measured_overstatement is not None]
