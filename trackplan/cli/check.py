@@ -16,7 +16,7 @@ from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION
                                   command, console, emit_json, print_caution, wide_console)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
                                    SCHEDULER_OPTION, SECTIONS_ARG, STRICT_OPTION, load_and_assess, network_name, print_data_warnings,
-                                   print_records,
+                                   print_network_footer,
                                    report_problems)
 
 _STYLE = {"act": "bold red", "watch": "yellow", "ok": "green"}
@@ -155,14 +155,7 @@ def check_cmd(
                    "files": [str(p) for p in written], "caution": CAUTION})
     else:
         print_checks(results, system.value, wide)
-        print_records([(a.section.climate_path.name, a.climate.time_step, a.climate.tz, a.climate.warnings)
-                       for a in results])
-        if register is not None:
-            console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
-                          highlight=False)
-        if written:
-            console.print(f"Wrote {len(written)} files to {written[0].parent}/ (summary: check_summary.html)",
-                          highlight=False)
+        print_network_footer(results, register, written, "check_summary.html")
         print_caution()
     report_problems(problems, len(results))
     if problems:

@@ -106,6 +106,20 @@ def print_records(rows) -> None:
                 console.print(f"[yellow]Warning ({w.code}):[/] {escape(str(w))}", highlight=False)
 
 
+def print_network_footer(results, register: Path | None, written: list, summary: str) -> None:
+    """Under a check or target table: each record's time step, zone and warnings, where the
+    neutral temperatures came from, and the files written."""
+    from trackplan.cli.common import console
+
+    print_records([(a.section.climate_path.name, a.climate.time_step, a.climate.tz, a.climate.warnings)
+                   for a in results])
+    if register is not None:
+        console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
+                      highlight=False)
+    if written:
+        console.print(f"Wrote {len(written)} files to {written[0].parent}/ (summary: {summary})", highlight=False)
+
+
 def network_name(path: Path) -> str | None:
     """The ``[network] name`` of a section file, or None (the file was read before)."""
     import tomllib

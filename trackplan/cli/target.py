@@ -13,7 +13,7 @@ from trackplan.assessment_tables import target_json
 from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
                                   command, console, emit_json, print_caution)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
-                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, print_data_warnings, print_records,
+                                   SECTIONS_ARG, STRICT_OPTION, load_and_assess, print_data_warnings, print_network_footer,
                                    report_problems)
 
 
@@ -135,14 +135,7 @@ def target_cmd(
                    "files": [str(p) for p in written], "caution": CAUTION})
     else:
         print_targets(results, system.value)
-        print_records([(a.section.climate_path.name, a.climate.time_step, a.climate.tz, a.climate.warnings)
-                       for a in results])
-        if register is not None:
-            console.print(f"Neutral temperatures and events from the register {register} (entry ids with --json).",
-                          highlight=False)
-        if written:
-            console.print(f"Wrote {len(written)} files to {written[0].parent}/ (summary: target_summary.html)",
-                          highlight=False)
+        print_network_footer(results, register, written, "target_summary.html")
         print_caution()
     report_problems(problems, len(results))
     if problems:
