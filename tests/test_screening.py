@@ -26,7 +26,10 @@ R = 10e3  # longitudinal resistance per rail [N/m]
 def _days(tmax, tmin=None, neutral=27.0, drift=5.0, allow=30.0, crit=40.0, r=R, gap=0.05, stress=160e6, wf=0.8):
     tmax = np.asarray(tmax, dtype=float)
     tmin = np.full(tmax.shape, 10.0) if tmin is None else np.asarray(tmin, dtype=float)
-    return screening.screen_days(tmax, tmin, neutral - drift, neutral, allow, crit, E, A, ALPHA, r, gap, stress, wf)
+    return screening.screen_days(tmax, tmin, heat_neutral_C=neutral - drift, cold_neutral_C=neutral,
+                                 allowable_rise_K=allow, critical_rise_K=crit, E_Pa=E, area_m2=A, alpha_per_K=ALPHA,
+                                 resistance_N_per_m=r, gap_limit_m=gap, tension_stress_limit_Pa=stress,
+                                 watch_fraction=wf)
 
 
 # --------------------------------------------------------------------------
@@ -93,8 +96,9 @@ def test_disturbance_window_changes_the_level():
     days = np.array([100, 115, 130])
     allow = screening.track_state_by_day(days, [12.0, 18.0, 30.0], [(100, 30)])
     crit = screening.track_state_by_day(days, [15.0, 25.0, 40.0], [(100, 30)])
-    d = screening.screen_days(np.full(3, 42.0), np.full(3, 10.0), 22.0, 27.0, allow, crit, E, A, ALPHA, R, 0.05,
-                              160e6)
+    d = screening.screen_days(np.full(3, 42.0), np.full(3, 10.0), heat_neutral_C=22.0, cold_neutral_C=27.0,
+                              allowable_rise_K=allow, critical_rise_K=crit, E_Pa=E, area_m2=A, alpha_per_K=ALPHA,
+                              resistance_N_per_m=R, gap_limit_m=0.05, tension_stress_limit_Pa=160e6)
     # rise 20 K every day: >= 15 critical on the event day; >= 18 restrict at half recovery; < 24 after
     assert d.heat_level.tolist() == [3, 2, 0]
 

@@ -436,10 +436,12 @@ def window_figures(rail_max_C, rail_min_C, year, days_in_year, spec: SectionSpec
     """Restrict, critical and cold days per year and the design maximum of one window."""
     from trackplan import extremes, screening
 
-    days = screening.screen_days(rail_max_C, rail_min_C, spec.heat_neutral_C, spec.cold_neutral_C,
-                                 spec.allowable_rise_K, spec.critical_rise_K, spec.E_Pa, spec.area_m2,
-                                 spec.alpha_per_K, spec.resistance_N_per_m, spec.gap_limit_m,
-                                 spec.tension_stress_limit_Pa, spec.watch_fraction)
+    days = screening.screen_days(
+        rail_max_C, rail_min_C, heat_neutral_C=spec.heat_neutral_C, cold_neutral_C=spec.cold_neutral_C,
+        allowable_rise_K=spec.allowable_rise_K, critical_rise_K=spec.critical_rise_K, E_Pa=spec.E_Pa,
+        area_m2=spec.area_m2, alpha_per_K=spec.alpha_per_K, resistance_N_per_m=spec.resistance_N_per_m,
+        gap_limit_m=spec.gap_limit_m, tension_stress_limit_Pa=spec.tension_stress_limit_Pa,
+        watch_fraction=spec.watch_fraction)
     uy, first_idx, inv = np.unique(year, return_index=True, return_inverse=True)
     season = np.asarray(days_in_year)[first_idx]
     counts = screening.annual_counts(year, days.valid, days.heat_level, days.cold, season, (uy, inv))

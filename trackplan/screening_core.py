@@ -170,10 +170,10 @@ class DayScreen:
     cold: np.ndarray  # bool (False on invalid days)
 
 
-def screen_days(rail_max_C, rail_min_C, heat_neutral_C, cold_neutral_C, allowable_rise_K, critical_rise_K,
+def screen_days(rail_max_C, rail_min_C, *, heat_neutral_C, cold_neutral_C, allowable_rise_K, critical_rise_K,
                 E_Pa: float, area_m2: float, alpha_per_K: float, resistance_N_per_m: float, gap_limit_m: float,
                 tension_stress_limit_Pa: float, watch_fraction: float = DEFAULT_WATCH_FRACTION) -> DayScreen:
-    """Heat level and cold flag of every day.
+    """Heat level and cold flag of every day (everything after the two series by keyword only).
 
     Parameters
     ----------
