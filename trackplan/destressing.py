@@ -370,7 +370,9 @@ class DestressPlan:
             "alpha_per_K": self.alpha_per_K,
             "E_GPa": self.E_Pa / 1e9,
             "area_cm2": self.area_m2 * 1e4,
-            "warnings": list(self.warnings),
+            # the one warning form of every command: objects with a stable code
+            "warnings": [{"code": c, "message": w, "where": _WHERE.get(c)}
+                         for c, w in zip(self.warning_codes, self.warnings)],
             "warning_codes": list(self.warning_codes),
         }
         if not self.stretch_possible and self.mode in ("free", "restrained"):
