@@ -12,8 +12,14 @@ the per-task costs and the peak resident memory. Target (issue 16): at most
 
 Run: ``python bench/bench_outlook.py [N_SECTIONS]``.
 
-Figures (2-core development machine shared with six other engineers' jobs, load
-average 5 to 8; 2 worker processes; 2026-12-02)
+Figures on a quiet 2-core machine (load average about 1; 2 worker processes; 2026-12-02)
+------------------------------------------------------------------------------
+1,000 sections: 180.0 s in all (outlook 177.5 s), at the 180 s limit; peak memory
+client 347 MB, workers 1,584 MB; adjust task 1.10 s of processor time (median;
+reading the cell 0.49 s), screen 22 ms per section and run.
+
+Earlier figures (the same machine shared with six other engineers' jobs, load
+average 5 to 8)
 ------------------------------------------------------------------------------
 With 1,000 sections: 156 adjust tasks (some sections lie nearer a neighbouring
 cell than their station's), 20 screen tasks, 6,000 section-runs.
