@@ -13,31 +13,21 @@ from trackplan.reports import PRINT_CSS, SCREEN_CSS, warnings_html
 
 
 def target_rows(assessments) -> list[dict]:
-    """One flat row per section (SI, units in column names)."""
+    """One flat row per section (SI, units in column names): the figures of
+    :func:`trackplan.assessment_tables.target_json`, flattened for a CSV."""
+    from trackplan.assessment_tables import target_json
+
+    nested = ("feasible_window_C", "regional_practice", "inputs", "warnings")  # in the JSON and the HTML only
     rows = []
     for a in assessments:
-        t = a.target
-        rows.append({
-            "section": a.section.id,
-            "name": a.section.name,
-            "station": a.climate.station,
-            "feasible": t.feasible,
-            "target_neutral_temperature_C": t.target_neutral_temperature_C,
-            "laying_range_low_C": t.laying_range_C[0] if t.laying_range_C else None,
-            "laying_range_high_C": t.laying_range_C[1] if t.laying_range_C else None,
-            "heat_floor_C": t.heat_floor_C,
-            "cold_ceiling_C": t.cold_ceiling_C,
-            "governing_cold_limit": t.governing_cold,
-            "shortfall_K": t.shortfall_K,
-            "design_max_rail_temperature_C": a.climate.design_max_C,
-            "design_min_rail_temperature_C": a.climate.design_min_C,
-            "design_basis": a.climate.design.design_basis,
-            "return_period_years": a.climate.design.return_period_years,
-            "allowable_rise_K": a.allowable_rise_K,
-            "drift_allowance_K": a.section.drift_allowance_K,
-            "explanation": " | ".join(str(x) for x in t.explanation),
-            "would_open_window": " | ".join(str(x) for x in t.openers),
-        })
+        j = target_json(a)
+        low, high = j.pop("laying_range_C") or (None, None)
+        row = {"section": j.pop("id"), "name": j.pop("name"), "station": a.climate.station,
+               "laying_range_low_C": low, "laying_range_high_C": high}
+        for key in ("explanation", "would_open_window"):
+            j[key] = " | ".join(j[key])
+        row.update((k, v) for k, v in j.items() if k not in nested)
+        rows.append(row)
     return rows
 
 
