@@ -690,7 +690,11 @@ def with_unloaded(result: StabilityResult) -> StabilityResult:
     if result.inputs.loading is None:
         return dataclasses.replace(result, unloaded_upper_critical_rise_K=result.upper_critical_rise_K,
                                    unloaded_lower_critical_rise_K=result.lower_critical_rise_K)
-    free = analyse_stability(dataclasses.replace(result.inputs, loading=None), result.criterion_name)
+    try:
+        free = analyse_stability(dataclasses.replace(result.inputs, loading=None), result.criterion_name)
+    except StabilityError as exc:  # the comparison is not worth losing the loaded result
+        return dataclasses.replace(result, notes=result.notes + (
+            f"the unloaded track could not be analysed for comparison ({exc.bare_message})",))
     return dataclasses.replace(result, unloaded_upper_critical_rise_K=free.upper_critical_rise_K,
                                unloaded_lower_critical_rise_K=free.lower_critical_rise_K)
 
