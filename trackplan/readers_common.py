@@ -321,6 +321,28 @@ def _parser_message(exc: Exception) -> str:
     return "".join(c if c.isprintable() else "?" for c in text)
 
 
+def _read_csv_text(text: str, dtypes: dict, kw: dict, what: str, where: str):
+    """Parse CSV text with the given column types; ``(frame, typed)``.
+
+    A malformed file raises :class:`InputError` with the parser's own words. When a column
+    does not fit its type (a ValueError from the parser), the text is read again as strings and
+    returned with ``typed = False``, so that the caller can name the offending cell.
+    """
+    import io
+
+    import pandas as pd
+
+    try:
+        return pd.read_csv(io.StringIO(text), dtype=dtypes, **kw), True
+    except pd.errors.ParserError as exc:  # a ValueError too: caught first
+        raise InputError(f"malformed {what} ({_parser_message(exc)})", where) from None
+    except ValueError:
+        try:
+            return pd.read_csv(io.StringIO(text), dtype=str, **kw), False
+        except (pd.errors.ParserError, ValueError) as exc:
+            raise InputError(f"malformed {what} ({_parser_message(exc)})", where) from None
+
+
 def _unit_factor(unit: str, q: _Quantity, where: str) -> tuple[float, float]:
     """``(factor, offset)`` so that SI = value * factor + offset."""
     u = unit.strip()

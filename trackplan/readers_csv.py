@@ -6,7 +6,6 @@ other CSV layouts in :mod:`trackplan.columns`.
 
 from __future__ import annotations
 
-import io
 
 import numpy as np
 import pandas as pd
@@ -24,7 +23,7 @@ from trackplan.readers_common import (
     _parse_meta_lines,
     _parse_times,
     _parse_timezone,
-    _parser_message,
+    _read_csv_text,
     _raise_bad_number,
     _unit_factor,
 )
@@ -82,15 +81,8 @@ def _read_trackplan_csv(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
         skip_blank_lines=False,
         skipinitialspace=True,
     )
-    try:
-        raw = pd.read_csv(io.StringIO(text), dtype=dtypes, **read_kw)
-    except pd.errors.ParserError as exc:  # a ValueError too: caught first
-        raise InputError(f"malformed CSV ({_parser_message(exc)})", ctx.label) from None
-    except ValueError:
-        try:
-            raw = pd.read_csv(io.StringIO(text), dtype=str, **read_kw)
-        except (pd.errors.ParserError, ValueError) as exc:
-            raise InputError(f"malformed CSV ({_parser_message(exc)})", ctx.label) from None
+    raw, typed = _read_csv_text(text, dtypes, read_kw, "CSV", ctx.label)
+    if not typed:
         _raise_bad_number(raw, list(used), names, header_line, ctx)
         raise  # pragma: no cover - the line above always raises
     # drop blank lines (all empty), remember file line of each row

@@ -6,7 +6,6 @@ fixed-width ``.dly`` layout is read by :mod:`trackplan.readers_fixed`.
 
 from __future__ import annotations
 
-import io
 from pathlib import Path
 
 import numpy as np
@@ -25,7 +24,7 @@ from trackplan.readers_common import (
     _Ctx,
     _first_lines,
     _parse_meta_lines,
-    _parser_message,
+    _read_csv_text,
 )
 
 
@@ -57,15 +56,8 @@ def _read_ghcn_daily(text: str, ctx: _Ctx) -> tuple[pd.DataFrame, dict]:
               "sflag": str, "obstime": str}
     kw = dict(header=None, names=_GHCN_NAMES, skiprows=skip, keep_default_na=False,
               na_values={"value": ["", "-9999"]}, skip_blank_lines=False, index_col=False)
-    try:
-        raw = pd.read_csv(io.StringIO(text), dtype=dtypes, **kw)
-    except pd.errors.ParserError as exc:  # a ValueError too: caught first
-        raise InputError(f"malformed GHCN-Daily CSV ({_parser_message(exc)})", ctx.label) from None
-    except ValueError:
-        try:
-            raw = pd.read_csv(io.StringIO(text), dtype=str, **kw)
-        except (pd.errors.ParserError, ValueError) as exc:
-            raise InputError(f"malformed GHCN-Daily CSV ({_parser_message(exc)})", ctx.label) from None
+    raw, typed = _read_csv_text(text, dtypes, kw, "GHCN-Daily CSV", ctx.label)
+    if not typed:
         v = raw["value"]
         num = pd.to_numeric(v, errors="coerce")
         bad = (v.notna() & (v != "") & (v != "-9999") & num.isna()).to_numpy()
