@@ -15,6 +15,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from trackplan.thermal import ColdSide
+
 xr = pytest.importorskip("xarray")
 pytest.importorskip("xsdba")
 pytest.importorskip("dask.distributed")
@@ -220,10 +222,11 @@ def test_window_figures_match_the_screening_rules():
     day a year (rise = T - (neutral - drift) against allowable 40 K and critical 50 K)."""
     from trackplan import outlook
 
-    spec = outlook.SectionSpec("S", "s", "r", 0, 0, None, None, heat_neutral_C=20.0, cold_neutral_C=25.0,
-                               allowable_rise_K=40.0, critical_rise_K=50.0, E_Pa=2.1e11, area_m2=7.67e-3,
-                               alpha_per_K=1.15e-5, resistance_N_per_m=1e4, gap_limit_m=0.05,
-                               tension_stress_limit_Pa=1.6e8, return_period_years=50, watch_fraction=0.8)
+    spec = outlook.SectionSpec(id="S", name="s", record="r", latitude_deg=0, longitude_deg=0, profile=None, site=None,
+                               heat_neutral_C=20.0, cold_neutral_C=25.0, allowable_rise_K=40.0, critical_rise_K=50.0,
+                               cold=ColdSide(E_Pa=2.1e11, area_m2=7.67e-3, alpha_per_K=1.15e-5, resistance_N_per_m=1e4,
+                                             gap_limit_m=0.05, tension_stress_limit_Pa=1.6e8),
+                               return_period_years=50, watch_fraction=0.8)
     years = np.repeat(np.arange(2001, 2031), 360)
     rmax = np.full(years.size, 30.0)
     rmin = np.full(years.size, 10.0)
@@ -329,8 +332,12 @@ def test_tabulated_rail_path_equals_the_direct_daily_extremes_path():
 
     site = RailSite(latitude_deg=ST_LAT, longitude_deg=ST_LON, elevation_m=390.0, track_azimuth_deg=100.0,
                     shade_factor=0.0)
-    spec = outlook.SectionSpec("S", "s", "r", ST_LAT, ST_LON, rails.get_profile("60E1"), site, 20, 25, 40, 50,
-                               2.1e11, 7.67e-3, 1.15e-5, 1e4, 0.05, 1.6e8, 50, 0.8)
+    spec = outlook.SectionSpec(id="S", name="s", record="r", latitude_deg=ST_LAT, longitude_deg=ST_LON,
+                               profile=rails.get_profile("60E1"), site=site, heat_neutral_C=20, cold_neutral_C=25,
+                               allowable_rise_K=40, critical_rise_K=50,
+                               cold=ColdSide(E_Pa=2.1e11, area_m2=7.67e-3, alpha_per_K=1.15e-5, resistance_N_per_m=1e4,
+                                             gap_limit_m=0.05, tension_stress_limit_Pa=1.6e8),
+                               return_period_years=50, watch_fraction=0.8)
     rng = np.random.default_rng(3)
     doy = np.tile(np.arange(1, 366), 3)
     tmax = rng.uniform(-25.0, 48.0, doy.size)

@@ -73,11 +73,12 @@ Dupuis, E. et al. xsdba: statistical downscaling and bias adjustment
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 
 import numpy as np
 
 from trackplan.errors import InputError
+from trackplan.thermal import ColdSide
 
 #: Quantiles of the QDM transfer function.
 QDM_QUANTILES = 50
@@ -131,9 +132,13 @@ def parse_window(text: str, where: str) -> Window:
     return Window(a, b)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class SectionSpec:
-    """What the outlook needs of a section (SI; thresholds as screening uses them)."""
+    """What the outlook needs of a section (SI; thresholds as screening uses them).
+
+    Built by keyword only; the cold-side figures (steel, rail area, longitudinal
+    resistance, gap and tension limits) travel as one :class:`trackplan.thermal.ColdSide`.
+    """
 
     id: str
     name: str
@@ -146,12 +151,7 @@ class SectionSpec:
     cold_neutral_C: float
     allowable_rise_K: float
     critical_rise_K: float
-    E_Pa: float
-    area_m2: float
-    alpha_per_K: float
-    resistance_N_per_m: float
-    gap_limit_m: float
-    tension_stress_limit_Pa: float
+    cold: ColdSide
     return_period_years: float
     watch_fraction: float
 
@@ -438,9 +438,8 @@ def window_figures(rail_max_C, rail_min_C, year, days_in_year, spec: SectionSpec
 
     days = screening.screen_days(
         rail_max_C, rail_min_C, heat_neutral_C=spec.heat_neutral_C, cold_neutral_C=spec.cold_neutral_C,
-        allowable_rise_K=spec.allowable_rise_K, critical_rise_K=spec.critical_rise_K, E_Pa=spec.E_Pa,
-        area_m2=spec.area_m2, alpha_per_K=spec.alpha_per_K, resistance_N_per_m=spec.resistance_N_per_m,
-        gap_limit_m=spec.gap_limit_m, tension_stress_limit_Pa=spec.tension_stress_limit_Pa,
+        allowable_rise_K=spec.allowable_rise_K, critical_rise_K=spec.critical_rise_K,
+        **{f.name: getattr(spec.cold, f.name) for f in fields(spec.cold)},
         watch_fraction=spec.watch_fraction)
     uy, first_idx, inv = np.unique(year, return_index=True, return_inverse=True)
     season = np.asarray(days_in_year)[first_idx]

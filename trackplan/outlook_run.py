@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 
 from trackplan.errors import InputError, TrackplanError
 from trackplan import outlook as core
+from trackplan.thermal import ColdSide
 
 #: Sections of one adjusted run handled by one task.
 SECTIONS_PER_TASK = 50
@@ -134,9 +135,9 @@ def section_spec(section, assessor, meta: dict, options: OutlookOptions) -> core
         latitude_deg=site.latitude_deg, longitude_deg=site.longitude_deg, profile=section.profile, site=sun_site,
         heat_neutral_C=neutral - section.drift_allowance_K, cold_neutral_C=neutral,
         allowable_rise_K=float(stab.allowable_rise_K), critical_rise_K=float(critical),
-        E_Pa=section.steel.E_Pa, area_m2=section.profile.area_m2, alpha_per_K=section.steel.alpha_per_K,
-        resistance_N_per_m=float(assessor.longitudinal_resistance(section)), gap_limit_m=section.gap_limit_m,
-        tension_stress_limit_Pa=section.tension_stress_limit_Pa,
+        cold=ColdSide(E_Pa=section.steel.E_Pa, area_m2=section.profile.area_m2, alpha_per_K=section.steel.alpha_per_K,
+                      resistance_N_per_m=float(assessor.longitudinal_resistance(section)),
+                      gap_limit_m=section.gap_limit_m, tension_stress_limit_Pa=section.tension_stress_limit_Pa),
         return_period_years=float(options.return_period_years or section.return_period_years),
         watch_fraction=options.watch_fraction,
     )
