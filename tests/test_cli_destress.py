@@ -150,6 +150,8 @@ def test_verdict_follows_every_blocking_warning(run_cli):
     assert "NO" in line and "too long" in line
     _, d = run_cli(*BASE, "--tensor-capacity", "200 kN", "--json", json_out=True)
     assert d["can_be_done_now"] is False and [b["code"] for b in d["blocking"]] == ["force_beyond_capacity"]
+    # the plan names the field; the command line places it at its option
+    assert d["blocking"][0]["where"] == "--tensor-capacity" == d["warnings"][0]["where"]
     _, d = run_cli(*BASE, "--tensor-capacity", "600 kN", "--json", json_out=True)
     assert d["can_be_done_now"] is True and d["blocking"] == []
 

@@ -165,8 +165,11 @@ def test_cut_length_is_extension_plus_allowance():
 @pytest.mark.parametrize("bad", ["thermite", "30", "400 mm", "", "30 kN"])
 def test_bad_weld(bad):
     with pytest.raises(InputError) as exc:
-        d.weld_allowance(bad)
+        d.weld_allowance(bad, "--weld")  # as the command line calls it
     assert exc.value.where == "--weld"  # given by the caller
+    with pytest.raises(InputError) as exc:
+        d.weld_allowance(bad)
+    assert exc.value.where == "weld"  # the field, when no caller names an option
 
 
 # --------------------------------------------------------------------------
@@ -346,5 +349,5 @@ def test_blocking_warnings_make_the_verdict():
     assert "achieved_differs_from_target" in whatif.warning_codes and whatif.can_be_done_now
     j = over.as_json()
     assert j["can_be_done_now"] is False and j["blocking"][0]["code"] == "force_beyond_capacity"
-    assert j["blocking"][0]["where"] == "--tensor-capacity"
+    assert j["blocking"][0]["where"] == "tensor_capacity"  # a field: the command line names its option
     assert "200 kN" in j["blocking"][0]["message"]

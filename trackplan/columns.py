@@ -103,8 +103,11 @@ def _mapping(name: str, source_text: str, where: str) -> ColumnMap:
     return ColumnMap(key, source, unit or None, where)
 
 
-def parse_options(texts, where: str = "--column") -> dict[str, ColumnMap]:
-    """Mappings from repeated ``--column`` options (``None`` or empty: no mapping)."""
+def parse_options(texts, where: str = "column") -> dict[str, ColumnMap]:
+    """Mappings from repeated ``QUANTITY="SOURCE [UNIT]"`` texts (``None`` or empty: no mapping).
+
+    ``where`` is the field name, or the option when the command line calls (it names its option).
+    """
     return _collect([parse_spec(t, where) for t in (texts or [])])
 
 

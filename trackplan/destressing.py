@@ -111,8 +111,9 @@ MODES = {
 
 #: Warnings that stop the work as planned ("can it be done now?" is no while any holds).
 BLOCKING_CODES = ("rail_hotter_than_target", "force_beyond_capacity", "string_too_long", "rail_to_add")
-_WHERE = {"rail_hotter_than_target": "--rail-temp", "force_beyond_capacity": "--tensor-capacity",
-          "string_too_long": "--length", "rail_to_add": "--target"}
+#: The field each blocking warning points at (the command line puts its option there).
+WARNING_FIELDS = {"rail_hotter_than_target": "rail_temp", "force_beyond_capacity": "tensor_capacity",
+                  "string_too_long": "length", "rail_to_add": "target"}
 
 #: Pulling arrangements (CLI choices come from the keys).
 PULLS = {
@@ -167,7 +168,7 @@ def weld_presets() -> dict[str, WeldAllowance]:
 _MAX_WELD_ALLOWANCE_M = 0.15
 
 
-def weld_allowance(spec: str, where: str = "--weld") -> WeldAllowance:
+def weld_allowance(spec: str, where: str = "weld") -> WeldAllowance:
     """A weld allowance from a preset name or a length with its unit.
 
     Parameters
@@ -363,7 +364,7 @@ class DestressPlan:
             "within_capacity": self.within_capacity,
             "stretch_possible": self.stretch_possible,
             "can_be_done_now": self.can_be_done_now,
-            "blocking": [{"code": c, "message": w, "where": _WHERE.get(c)} for c, w in self.blocking],
+            "blocking": [{"code": c, "message": w, "where": WARNING_FIELDS.get(c)} for c, w in self.blocking],
             "mark_spacing_m": self.mark_spacing_m,
             "marks": [{"distance_m": d, "movement_mm": m * 1e3} for d, m in self.marks],
             "max_pull_length_m": self.max_pull_length_m,
@@ -371,7 +372,7 @@ class DestressPlan:
             "E_GPa": self.E_Pa / 1e9,
             "area_cm2": self.area_m2 * 1e4,
             # the one warning form of every command: objects with a stable code
-            "warnings": [{"code": c, "message": w, "where": _WHERE.get(c)}
+            "warnings": [{"code": c, "message": w, "where": WARNING_FIELDS.get(c)}
                          for c, w in zip(self.warning_codes, self.warnings)],
             "warning_codes": list(self.warning_codes),
         }

@@ -55,12 +55,13 @@ def dask_engine(scheduler: str | None = None, workers: int | None = None, proces
 
     if scheduler:
         if "://" not in scheduler:
-            raise InputError(f"{scheduler!r} is not a scheduler address; write tcp://HOST:PORT", "--scheduler")
+            raise InputError(f"{scheduler!r} is not a scheduler address; write tcp://HOST:PORT",
+                             field="scheduler")
         try:
             client = Client(scheduler, timeout="10s")
         except (OSError, TimeoutError) as exc:
             raise InputError(f"no Dask scheduler answers at {scheduler} ({exc.__class__.__name__})",
-                             "--scheduler") from None
+                             field="scheduler") from None
         try:
             n = len(client.scheduler_info().get("workers", {}))
             yield Engine(client, scheduler, n)

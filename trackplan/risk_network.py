@@ -26,7 +26,7 @@ SEASONS = ("summer", "year")
 BUILD_TEST_POINTS = 40
 
 
-def season_months(season: str, latitude_deg: float, where: str = "--season"):
+def season_months(season: str, latitude_deg: float, where: str | None = None):
     """Months of a season name or ``M-M`` range at a latitude (southern summer: November-March)."""
     from trackplan.screening import parse_months
 
@@ -40,7 +40,7 @@ def season_months(season: str, latitude_deg: float, where: str = "--season"):
         return parse_months(season, where)
     except InputError:
         raise InputError(f"unknown season {season!r}; accepted: {', '.join(SEASONS)} or a month range such as 6-8",
-                         where) from None
+                         where, field="season") from None
 
 
 @dataclass(frozen=True)
@@ -78,9 +78,9 @@ class RiskOptions:
 
     def validate(self) -> "RiskOptions":
         if not isinstance(self.samples, int) or not 100 <= self.samples <= 10_000_000:
-            raise InputError(f"{self.samples!r} samples is outside 100..10,000,000", "--samples")
+            raise InputError(f"{self.samples!r} samples is outside 100..10,000,000", field="samples")
         if not isinstance(self.seed, int) or self.seed < 0:
-            raise InputError(f"seed {self.seed!r} must be a whole number 0 or more", "--seed")
+            raise InputError(f"seed {self.seed!r} must be a whole number 0 or more", field="seed")
         season_months(self.season, 0.0)
         return self
 

@@ -77,4 +77,4 @@ def winter_warnings(months: tuple[int, int] | None, latitude_deg: float | None, 
 
     return (Notice(f"months {months[0]}-{months[1]} are mostly winter at {station} (latitude {latitude_deg:.1f}, "
                    f"{hemisphere(latitude_deg)}ern hemisphere): few heat days are to be expected; for its hot "
-                   "season use --season summer", "winter_months", "--months"),)
+                   "season use --season summer", "winter_months", "months"),)

@@ -203,6 +203,20 @@ def _locate(exc: TrackplanError) -> TrackplanError:
     return exc
 
 
+def place_fields(obj):
+    """A command's JSON with the ``where`` of its warnings placed at the running command's options:
+    a computation module names a field (``tensor_capacity``, ``months``); the command line shows the
+    option that carries it (``--tensor-capacity``). A ``where`` no option carries is left as it is."""
+    if isinstance(obj, dict):
+        out = {k: place_fields(v) for k, v in obj.items()}
+        if set(out) == {"code", "message", "where"} and isinstance(out["where"], str):
+            out["where"] = _option_for(out["where"]) or out["where"]
+        return out
+    if isinstance(obj, list):
+        return [place_fields(v) for v in obj]
+    return obj
+
+
 def _os_error(exc: OSError) -> InputError:
     from trackplan.errors import excerpt
 
@@ -351,8 +365,8 @@ def jsonable(obj):
 
 
 def emit_json(obj: dict) -> None:
-    """Write one JSON object to stdout."""
-    sys.stdout.write(json.dumps(jsonable(obj), indent=2, allow_nan=False) + "\n")
+    """Write one JSON object to stdout (warnings' fields placed at the command's options)."""
+    sys.stdout.write(json.dumps(jsonable(place_fields(obj)), indent=2, allow_nan=False) + "\n")
 
 
 def print_caution() -> None:

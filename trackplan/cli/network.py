@@ -61,7 +61,8 @@ def load_and_assess(path: Path, strict: bool, return_period: float | None, distr
     if priority not in names.PRIORITIES:
         raise InputError(f"unknown priority {priority!r}; accepted: {', '.join(names.PRIORITIES)}", "--priority")
     sf = read_sections(path, strict, register)
-    assessor = Assessor(return_period, distribution, priority, columns.parse_options(column), tz, allow_short)
+    assessor = Assessor(return_period, distribution, priority, columns.parse_options(column, "--column"), tz,
+                        allow_short)
     from trackplan.engine import engine_for
 
     with engine_for(sf.sections, scheduler) as engine:

@@ -108,7 +108,7 @@ def railtemp_cmd(
     from trackplan import columns, notices
 
     phase(f"reading {Path(file).name}")
-    df, meta = weather.read_record(file, columns=columns.parse_options(column), tz=tz, site=(lat_v, lon_v))
+    df, meta = weather.read_record(file, columns=columns.parse_options(column, "--column"), tz=tz, site=(lat_v, lon_v))
     lat_v = lat_v if lat_v is not None else meta.get("latitude_deg")
     lon_v = lon_v if lon_v is not None else meta.get("longitude_deg")
     if lat_v is None or lon_v is None:

@@ -48,7 +48,7 @@ def run_screen(sections_file: Path, options, strict: bool, register: Path | None
     from trackplan.screening import Screener
 
     sf = read_sections(sections_file, strict, register)
-    screener = Screener(Assessor(columns=columns.parse_options(column), tz=tz), options)
+    screener = Screener(Assessor(columns=columns.parse_options(column, "--column"), tz=tz), options)
     from trackplan.engine import engine_for
 
     with engine_for(sf.sections, scheduler) as engine:
