@@ -41,3 +41,70 @@ def dask_cluster():
     with LocalCluster(n_workers=2, threads_per_worker=1, processes=False, dashboard_address="127.0.0.1:0",
                       host="127.0.0.1", protocol="tcp") as cluster, Client(cluster) as client:
         yield cluster, Engine(client, "local", 2)
+
+
+# --------------------------------------------------------------------------
+# One vocabulary: the keys of every command's JSON are names of docs/glossary.md,
+# and its CSV columns are that JSON flattened (trackplan.tables)
+# --------------------------------------------------------------------------
+
+#: JSON objects keyed by data (levels, inputs, sections, models), not by names: their keys are not vocabulary.
+KEYED_BY_DATA = ("days_per_year", "heat_days_by_level", "drivers", "models", "sections_by_id")
+
+
+def glossary_names() -> set:
+    """Every name written in code style in docs/glossary.md (the identifiers inside backticks)."""
+    import re
+    from pathlib import Path
+
+    text = (Path(__file__).resolve().parents[1] / "docs" / "glossary.md").read_text(encoding="utf-8")
+    names = set()
+    for span in re.findall(r"`([^`]+)`", text):
+        names.update(re.findall(r"[A-Za-z_][A-Za-z0-9_]*", span))
+    return names
+
+
+def keys_outside_glossary(obj, path: str = "", names: set | None = None) -> set:
+    """The paths of the keys of a JSON object (at any depth) that docs/glossary.md does not name."""
+    names = glossary_names() if names is None else names
+    out = set()
+    if isinstance(obj, dict):
+        for k, v in obj.items():
+            here = f"{path}.{k}" if path else k
+            if k not in names and path.rsplit(".", 1)[-1] not in KEYED_BY_DATA:
+                out.add(here)
+            out |= keys_outside_glossary(v, here, names)
+    elif isinstance(obj, list):
+        for v in obj:
+            out |= keys_outside_glossary(v, path + "[]", names)
+    return out
+
+
+def assert_glossary_keys(obj) -> None:
+    """Fail naming every key of ``obj`` that docs/glossary.md does not name."""
+    missing = keys_outside_glossary(obj)
+    assert not missing, f"JSON keys not in docs/glossary.md: {sorted(missing)}"
+
+
+def assert_csv_is_flat_json(csv_path, rows: list[dict], key: str = "section") -> None:
+    """The CSV's columns are the flattened JSON keys (``rows``: trackplan.tables rows of the command's
+    JSON), in order, and each cell holds the JSON's value (numbers to the CSV's rounding)."""
+    import math
+
+    import pandas as pd
+
+    df = pd.read_csv(csv_path, comment="#", keep_default_na=False, dtype=str)
+    assert rows, "no JSON rows to compare"
+    assert list(df.columns) == list(rows[0]), (list(df.columns), list(rows[0]))
+    assert len(df) == len(rows)
+    for (_, got), want in zip(df.iterrows(), rows):
+        for col, v in want.items():
+            cell = got[col]
+            if v is None or (isinstance(v, float) and not math.isfinite(v)):
+                assert cell == "", (col, cell)
+            elif isinstance(v, bool):
+                assert cell == str(v), (col, cell, v)
+            elif isinstance(v, (int, float)):
+                assert float(cell) == pytest.approx(v, rel=1e-3, abs=0.051), (col, cell, v)
+            else:
+                assert cell.lstrip("'") == str(v), (col, cell, v)

@@ -2,9 +2,9 @@
 
 Rendering only: these read the result objects of :mod:`trackplan.assess` (a
 ``SectionAssessment``: the section, its climate, stability, target and check)
-and compute nothing new. Every figure the check's JSON and its CSV share is
-built once, by :func:`check_figures`, with the names of docs/glossary.md (SI,
-the unit in the key).
+and compute nothing new. Every figure is built once, by :func:`check_figures`
+and the JSON builders, with the names of docs/glossary.md (SI, the unit in the
+key); the CSV rows are the JSON flattened (:mod:`trackplan.tables`).
 """
 
 from __future__ import annotations
@@ -33,39 +33,54 @@ def check_figures(a) -> dict:
 
 
 def check_json(a) -> dict:
-    """JSON object of one section's check (``trackplan check --json``)."""
+    """JSON object of one section's check (``trackplan check --json``); ``check.csv`` is its rows."""
     from trackplan.actions import section_action
 
-    c, f = a.check, check_figures(a)
+    s, c, t, f = a.section, a.check, a.target, check_figures(a)
     action = section_action(a)
-    keys = ("current_neutral_temperature_C", "recorded_neutral_temperature_C")
-    out = {
-        "id": a.section.id,
-        "name": a.section.name,
+    return {
+        "id": s.id,
+        "name": s.name,
+        "location": s.location,
         "verdict": c.verdict,
         "reasons": c.reasons,
         "action": None if action is None else str(action),
-        **{k: f[k] for k in keys},
-        "neutral_entry_id": a.section.neutral_entry_id,
-    }
-    keys = ("design_max_rail_temperature_C", "design_min_rail_temperature_C", "max_compression_force_per_rail_kN",
-            "heat_rise_K", "allowable_rise_K", "heat_margin_K", "max_tension_force_per_rail_kN",
-            "max_tension_stress_MPa", "pull_apart_gap_mm", "target_neutral_temperature_C")
-    out.update({k: f[k] for k in keys})
-    out.update({
+        "rail": s.profile.name,
+        "sleeper": s.sleeper,
+        "ballast": s.ballast,
+        "curve": s.curve_label,
+        "station": a.climate.station,
+        "rail_temperature_method": a.climate.method,
+        "design_basis": a.climate.design.design_basis,
+        "return_period_years": a.climate.design.return_period_years,
+        **{k: f[k] for k in ("design_max_rail_temperature_C", "design_min_rail_temperature_C",
+                             "recorded_neutral_temperature_C")},
+        "neutral_entry_id": s.neutral_entry_id,
+        "drift_allowance_K": s.drift_allowance_K,
+        **{k: f[k] for k in ("current_neutral_temperature_C", "heat_rise_K")},
+        "upper_critical_rise_K": a.stability.upper_critical_rise_K,
+        "lower_critical_rise_K": a.stability.lower_critical_rise_K,
         "response": a.stability.response,
+        **{k: f[k] for k in ("allowable_rise_K", "heat_margin_K", "max_compression_force_per_rail_kN",
+                             "max_tension_force_per_rail_kN", "max_tension_stress_MPa", "pull_apart_gap_mm",
+                             "gap_limit_mm")},
+        "longitudinal_resistance_kN_per_m": a.longitudinal_resistance_N_per_m / 1e3,
+        "target_neutral_temperature_C": f["target_neutral_temperature_C"],
+        "laying_range_C": list(t.laying_range_C) if t.laying_range_C else None,
+        "feasible": t.feasible,
         "inputs": {"tz": a.climate.tz, "time_step": a.climate.time_step},
         "warnings": notices.to_json(a.climate.warnings),
-    })
-    return out
+    }
 
 
 def target_json(a) -> dict:
-    """JSON object of one section's target (``trackplan target --json``; SI, units in keys)."""
+    """JSON object of one section's target (``trackplan target --json``; SI, units in keys);
+    ``target.csv`` is its rows."""
     t = a.target
     return {
         "id": a.section.id,
         "name": a.section.name,
+        "station": a.climate.station,
         "target_neutral_temperature_C": t.target_neutral_temperature_C,
         "laying_range_C": list(t.laying_range_C) if t.laying_range_C else None,
         "feasible_window_C": list(t.feasible_window_C) if t.feasible_window_C else None,
@@ -97,42 +112,14 @@ def target_json(a) -> dict:
 
 
 def check_rows(assessments) -> list[dict]:
-    """One flat CSV row of figures per assessed section (SI, units in column names)."""
-    from trackplan.actions import section_action
+    """``check.csv``: one row per assessed section, its check JSON flattened (:mod:`trackplan.tables`)."""
+    from trackplan import tables
 
-    rows = []
-    for a in assessments:
-        s, c, t, f = a.section, a.check, a.target, check_figures(a)
-        action = section_action(a)
-        row = {
-            "section": s.id,
-            "name": s.name,
-            "location": s.location,
-            "verdict": c.verdict,
-            "reasons": " | ".join(c.reasons),
-            "action": "" if action is None else str(action),
-            "rail": s.profile.name,
-            "sleeper": s.sleeper,
-            "ballast": s.ballast,
-            "curve": s.curve_label,
-            "station": a.climate.station,
-            "rail_temperature_method": a.climate.method,
-            "design_basis": a.climate.design.design_basis,
-            "return_period_years": a.climate.design.return_period_years,
-        }
-        row.update({k: f[k] for k in ("design_max_rail_temperature_C", "design_min_rail_temperature_C",
-                                      "recorded_neutral_temperature_C")})
-        row["drift_allowance_K"] = s.drift_allowance_K
-        row.update({k: f[k] for k in ("current_neutral_temperature_C", "heat_rise_K")})
-        row["upper_critical_rise_K"] = a.stability.upper_critical_rise_K
-        row["lower_critical_rise_K"] = a.stability.lower_critical_rise_K
-        row.update({k: f[k] for k in ("allowable_rise_K", "heat_margin_K", "max_compression_force_per_rail_kN",
-                                      "max_tension_force_per_rail_kN", "max_tension_stress_MPa", "pull_apart_gap_mm",
-                                      "gap_limit_mm")})
-        row["longitudinal_resistance_kN_per_m"] = a.longitudinal_resistance_N_per_m / 1e3
-        row["target_neutral_temperature_C"] = f["target_neutral_temperature_C"]
-        row["laying_range_low_C"] = t.laying_range_C[0] if t.laying_range_C else None
-        row["laying_range_high_C"] = t.laying_range_C[1] if t.laying_range_C else None
-        row["feasible"] = t.feasible
-        rows.append(row)
-    return rows
+    return tables.csv_rows(check_json(a) for a in assessments)
+
+
+def target_rows(assessments) -> list[dict]:
+    """``target.csv``: one row per section, its target JSON flattened (:mod:`trackplan.tables`)."""
+    from trackplan import tables
+
+    return tables.csv_rows(target_json(a) for a in assessments)  # regional practice: a list, JSON and HTML only

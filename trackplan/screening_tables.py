@@ -49,28 +49,10 @@ def flagged_frame(result: ScreenResult):
 
 
 def annual_frame(result: ScreenResult):
-    """Per-section, per-year counts (one row per section and year)."""
-    import pandas as pd
+    """Per-section, per-year counts (one row per section and year): the ``annual`` entries of the JSON."""
+    from trackplan import tables
 
-    parts = []
-    for s in result.sections:
-        a = s.annual
-        parts.append(pd.DataFrame({
-            "section": np.full(a.year.size, s.id, dtype=object),
-            "year": a.year,
-            "season_days": a.season_days,
-            "screened_days": a.screened_days,
-            "missing_days": a.missing_days,
-            "watch_days": a.watch_days,
-            "restrict_days": a.restrict_days,
-            "critical_days": a.critical_days,
-            "cold_days": a.cold_days,
-            "complete": a.complete,
-        }))
-    if not parts:
-        return pd.DataFrame(columns=["section", "year", "season_days", "screened_days", "missing_days",
-                                     "watch_days", "restrict_days", "critical_days", "cold_days", "complete"])
-    return pd.concat(parts, ignore_index=True)
+    return tables.frame(annual_rows(result_json(result)), ANNUAL_COLUMNS)
 
 
 def _day_json(d: Day | None) -> dict | None:
@@ -142,6 +124,40 @@ def options_json(o: ScreenOptions) -> dict:
         "neutral_override_C": o.neutral_override_C,
         "watch_fraction": o.watch_fraction,
     }
+
+
+def result_json(result: ScreenResult) -> dict:
+    """JSON of a ``screen`` run (the command adds the files written and the caution)."""
+    entries = getattr(result, "neutral_entries", {}) or {}
+    return {
+        "sections": [{**section_json(r), "neutral_entry_id": entries.get(r.id)} for r in result.sections],
+        "settings": options_json(result.options),
+        "levels": list(LEVELS) + [COLD_LEVEL],
+        "problems": [str(p) for p in result.problems],
+    }
+
+
+#: How the nested objects of a section's JSON are named in ``screen_summary.csv`` (see trackplan.tables).
+SUMMARY_NAMES = {"heat_days_by_level": "{}_days", "days_per_year": "{}_days_per_year",
+                 "worst_day": "worst_day_{}", "worst_cold_day": "worst_cold_day_{}"}
+
+#: Columns of ``annual_counts.csv`` (the ``annual`` entries of a section's JSON), for an empty file.
+ANNUAL_COLUMNS = ("section", "year", "season_days", "screened_days", "missing_days", "watch_days",
+                  "restrict_days", "critical_days", "cold_days", "complete")
+
+
+def summary_rows(data: dict) -> list[dict]:
+    """``screen_summary.csv``: one row per section, the section's JSON flattened (:mod:`trackplan.tables`)."""
+    from trackplan import tables
+
+    return tables.csv_rows(data["sections"], SUMMARY_NAMES, tables.LEAVE_OUT + ("annual",))
+
+
+def annual_rows(data: dict) -> list[dict]:
+    """``annual_counts.csv``: the ``annual`` entries of every section's JSON, one row per section and year."""
+    from trackplan import tables
+
+    return tables.table_rows(data["sections"], "annual")
 
 
 def rank_key(s: SectionScreen) -> tuple:

@@ -13,22 +13,10 @@ from trackplan.reports import PRINT_CSS, SCREEN_CSS, warnings_html
 
 
 def target_rows(assessments) -> list[dict]:
-    """One flat row per section (SI, units in column names): the figures of
-    :func:`trackplan.assessment_tables.target_json`, flattened for a CSV."""
-    from trackplan.assessment_tables import target_json
+    """One flat row per section: the target JSON flattened (:func:`trackplan.assessment_tables.target_rows`)."""
+    from trackplan.assessment_tables import target_rows as rows
 
-    nested = ("feasible_window_C", "regional_practice", "inputs", "warnings")  # in the JSON and the HTML only
-    rows = []
-    for a in assessments:
-        j = target_json(a)
-        low, high = j.pop("laying_range_C") or (None, None)
-        row = {"section": j.pop("id"), "name": j.pop("name"), "station": a.climate.station,
-               "laying_range_low_C": low, "laying_range_high_C": high}
-        for key in ("explanation", "would_open_window"):
-            j[key] = " | ".join(j[key])
-        row.update((k, v) for k, v in j.items() if k not in nested)
-        rows.append(row)
-    return rows
+    return rows(assessments)
 
 
 def target_html(assessments, system: str = "si", network: str | None = None, settings: str = "",

@@ -320,9 +320,7 @@ def annual_figure(result, system: str = "si"):
 def write_outputs(out: Path, result, sections_file: Path, system: str) -> list[Path]:
     """flagged_days.csv, annual_counts.csv, screen_summary.csv, the two plots and
     screen_summary.html; every file records the settings it was made with."""
-    import pandas as pd
-
-    from trackplan import reports, screening
+    from trackplan import reports, screening, screening_tables, tables
     from trackplan.cli.network import network_name
 
     reports.matplotlib_backend()
@@ -332,32 +330,14 @@ def write_outputs(out: Path, result, sections_file: Path, system: str) -> list[P
                                                         "screen_summary.html"])
     settings = [settings_pairs(result.options, "si")[0], ("section file", str(sections_file)),
                 *settings_pairs(result.options, "si")[1:]]
+    data = screening_tables.result_json(result)  # the summary and the annual counts are its rows
     written = [
         reports.write_csv(out / "flagged_days.csv", screening.flagged_frame(result), inputs, settings),
-        reports.write_csv(out / "annual_counts.csv", screening.annual_frame(result), inputs, settings),
+        reports.write_csv(out / "annual_counts.csv", tables.frame(screening_tables.annual_rows(data),
+                                                                  screening_tables.ANNUAL_COLUMNS), inputs, settings),
+        reports.write_csv(out / "screen_summary.csv", tables.frame(screening_tables.summary_rows(data)), inputs,
+                          settings),
     ]
-    rows = []
-    for r in result.sections:
-        j = screening.section_json(r)
-        rows.append({
-            "section": r.id, "name": r.name, "station": r.station, "months": " ".join(str(m) for m in r.months),
-            "first_date": j["first_date"],
-            "last_date": j["last_date"], "screened_days": r.screened_days, "missing_days": r.missing_days,
-            "complete_years": r.complete_years,
-            **{f"{lev}_days": r.heat_days_by_level[lev] for lev in screening.LEVELS},
-            "cold_days": r.cold_days,
-            **{f"{lev}_days_per_year": j["days_per_year"][lev] for lev in screening.LEVELS + ("cold",)},
-            "worst_date": j["worst_day"]["date"] if j["worst_day"] else None,
-            "worst_rise_K": j["worst_day"]["rise_K"] if j["worst_day"] else None,
-            "worst_allowable_rise_K": j["worst_day"]["allowable_rise_K"] if j["worst_day"] else None,
-            "heat_days_per_decade": r.trend.heat_days_per_decade,
-            "heat_days_per_decade_se": r.trend.heat_days_per_decade_se,
-            "restrict_days_per_decade": r.trend.restrict_days_per_decade,
-            "cold_days_per_decade": r.trend.cold_days_per_decade,
-            "allowable_rise_K": r.allowable_rise_K, "critical_rise_K": j["critical_rise_K"],
-            "critical_basis": r.critical_basis, "cold_limit_rise_K": r.cold_limit_rise_K,
-        })
-    written.append(reports.write_csv(out / "screen_summary.csv", pd.DataFrame(rows), inputs, settings))
     pngs = {"flagged_timeline.png": reports.figure_png_bytes(timeline_figure(result, system)),
             "annual_counts.png": reports.figure_png_bytes(annual_figure(result, system))}
     for name, png in pngs.items():
@@ -409,21 +389,13 @@ def screen_cmd(
 
     Example: trackplan screen examples/network.toml --months 5-9 --warming "1.5 K" --out screen-report
     """
-    from trackplan import screening
+    from trackplan import screening, screening_tables
 
     options = build_options(date_from, date_to, months, warming, neutral_override, watch_fraction, system.value, season)
     result = run_screen(sections_file, options, strict, register, column, tz, scheduler)
     written = write_outputs(out, result, sections_file, system.value) if out is not None else []
     if as_json:
-        emit_json({
-            "sections": [{**screening.section_json(r), "neutral_entry_id": result.neutral_entries.get(r.id)}
-                         for r in result.sections],
-            "settings": screening.options_json(options),
-            "levels": list(screening.LEVELS) + [screening.COLD_LEVEL],
-            "problems": [str(p) for p in result.problems],
-            "files": [str(p) for p in written],
-            "caution": CAUTION,
-        })
+        emit_json({**screening_tables.result_json(result), "files": [str(p) for p in written], "caution": CAUTION})
     else:
         if result.sections:
             print_summary(result, system.value, wide)
