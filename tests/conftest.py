@@ -86,13 +86,19 @@ def assert_glossary_keys(obj) -> None:
     assert not missing, f"JSON keys not in docs/glossary.md: {sorted(missing)}"
 
 
-def assert_csv_is_flat_json(csv_path, rows: list[dict], key: str = "section") -> None:
-    """The CSV's columns are the flattened JSON keys (``rows``: trackplan.tables rows of the command's
-    JSON), in order, and each cell holds the JSON's value (numbers to the CSV's rounding)."""
+def assert_csv_is_flat_json(csv_path, objs: list[dict], names: dict | None = None, leave_out=None,
+                            aliases: dict | None = None) -> None:
+    """The CSV's columns are the flattened keys of the command's JSON objects ``objs`` (trackplan.tables,
+    with the command's ``names`` and ``leave_out``), in order, and each cell holds the JSON's value (numbers
+    to the CSV's rounding). ``aliases``: earlier column names kept after them (old -> JSON name)."""
     import math
 
     import pandas as pd
 
+    from trackplan import tables
+
+    rows = [tables.flat_row(o, names, tables.LEAVE_OUT if leave_out is None else leave_out) for o in objs]
+    rows = [{**r, **{old: r[new] for old, new in (aliases or {}).items()}} for r in rows]
     df = pd.read_csv(csv_path, comment="#", keep_default_na=False, dtype=str)
     assert rows, "no JSON rows to compare"
     assert list(df.columns) == list(rows[0]), (list(df.columns), list(rows[0]))
@@ -108,3 +114,11 @@ def assert_csv_is_flat_json(csv_path, rows: list[dict], key: str = "section") ->
                 assert float(cell) == pytest.approx(v, rel=1e-3, abs=0.051), (col, cell, v)
             else:
                 assert cell.lstrip("'") == str(v), (col, cell, v)
+
+
+@pytest.fixture
+def vocabulary():
+    """The checks of one vocabulary: ``.assert_glossary_keys(json)``, ``.assert_csv_is_flat_json(...)``."""
+    from types import SimpleNamespace
+
+    return SimpleNamespace(assert_glossary_keys=assert_glossary_keys, assert_csv_is_flat_json=assert_csv_is_flat_json)

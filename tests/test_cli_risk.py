@@ -42,7 +42,7 @@ def small_grid(monkeypatch, tmp_path):
     return f
 
 
-def test_risk_json_ranks_sections_and_carries_the_interface(run_cli, small_grid, tmp_path):
+def test_risk_json_ranks_sections_and_carries_the_interface(run_cli, small_grid, tmp_path, vocabulary):
     res, j = run_cli("risk", small_grid, "--samples", "400", "--seed", "4", "--json", "--out", tmp_path / "out",
                      json_out=True)
     assert res.exit_code == 0, res.output
@@ -64,6 +64,12 @@ def test_risk_json_ranks_sections_and_carries_the_interface(run_cli, small_grid,
     assert (tmp_path / "out" / "risk_network.png").stat().st_size > 10000
     import csv
 
+    # one vocabulary: every key a glossary name; the CSV is the JSON's sections flattened
+    from trackplan import risk_report
+
+    vocabulary.assert_glossary_keys(j)
+    vocabulary.assert_csv_is_flat_json(tmp_path / "out" / "risk_sections.csv", j["sections"], risk_report.CSV_NAMES,
+                                       ("season_probabilities",), risk_report.CSV_ALIASES)
     rows = {r["section"]: r for r in csv.DictReader((tmp_path / "out" / "risk_sections.csv").open())}
     # small probabilities survive the CSV (no rounding to a few decimals)
     assert float(rows["HOT-1"]["probability_per_season"]) == pytest.approx(p["value"], rel=1e-3)

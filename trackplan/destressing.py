@@ -56,8 +56,9 @@ from importlib import resources
 
 import numpy as np
 
-from trackplan import ranges, thermal, units
+from trackplan import notices, ranges, thermal, units
 from trackplan.errors import InputError
+from trackplan.notices import Notice
 
 # The physics of the plan lives apart; every name stays importable from here.
 from trackplan.destressing_physics import (  # noqa: F401
@@ -364,7 +365,7 @@ class DestressPlan:
             "within_capacity": self.within_capacity,
             "stretch_possible": self.stretch_possible,
             "can_be_done_now": self.can_be_done_now,
-            "blocking": [{"code": c, "message": w, "where": WARNING_FIELDS.get(c)} for c, w in self.blocking],
+            "blocking": notices.to_json(Notice(w, c, WARNING_FIELDS.get(c)) for c, w in self.blocking),
             "mark_spacing_m": self.mark_spacing_m,
             "marks": [{"distance_m": d, "movement_mm": m * 1e3} for d, m in self.marks],
             "max_pull_length_m": self.max_pull_length_m,
@@ -372,8 +373,8 @@ class DestressPlan:
             "E_GPa": self.E_Pa / 1e9,
             "area_cm2": self.area_m2 * 1e4,
             # the one warning form of every command: objects with a stable code
-            "warnings": [{"code": c, "message": w, "where": WARNING_FIELDS.get(c)}
-                         for c, w in zip(self.warning_codes, self.warnings)],
+            "warnings": notices.to_json(Notice(w, c, WARNING_FIELDS.get(c))
+                                        for c, w in zip(self.warning_codes, self.warnings)),
             "warning_codes": list(self.warning_codes),
         }
         if not self.stretch_possible and self.mode in ("free", "restrained"):

@@ -31,6 +31,15 @@ code                       meaning
 ``no_coordinates``         the record gives no latitude/longitude (a section or option may)
 ``winter_months``          the months screened are mostly winter at the station
 ``record_note``            anything else about the record
+``rail_hotter_than_target``  destress: the rail is hotter than the target (no stretch now)
+``force_beyond_capacity``  destress: the tensor force exceeds the tensor's capacity
+``string_too_long``        destress: the string is longer than one pull can move
+``rail_to_add``            destress: rail must be added (the target is below the rail temperature)
+``achieved_differs_from_target``  destress: a short pull's reading gives another neutral
+``bad_section``            risk: a section that could not be computed
+``projection-metadata``    outlook: a projection file's model or scenario read from its name
+``period-outside-run``     outlook: a period the model run does not cover
+``short-baseline``         outlook: a station record that covers little of the baseline
 =========================  =====================================================
 """
 
@@ -44,6 +53,9 @@ CODES = (
     "ignored_columns", "smoothed_series", "typical_year", "repeated_years", "short_record",
     "observed_extreme_used", "extrapolated", "heavy_tail", "quality_flag", "calendar", "assumed_input",
     "winter_months", "no_coordinates", "record_note",
+    # destress (trackplan.destressing), risk, outlook
+    "rail_hotter_than_target", "force_beyond_capacity", "string_too_long", "rail_to_add",
+    "achieved_differs_from_target", "bad_section", "projection-metadata", "period-outside-run", "short-baseline",
 )
 
 

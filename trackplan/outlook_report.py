@@ -5,6 +5,7 @@ Reads :class:`trackplan.outlook_run.OutlookResult`; computes nothing new.
 
 from __future__ import annotations
 
+from trackplan import notices
 from trackplan import outlook as core
 
 SCENARIO_COLOURS = ["#2e86c1", "#c0392b", "#8e44ad", "#d68910", "#16a085", "#7f8c8d"]
@@ -47,7 +48,7 @@ def result_json(res, caution: str, files=()) -> dict:
                               **{k: r[k] for k in core.STATS}} for r in rows] for scen, rows in s.chart.items()},
             "notes": s.notes,
         } for s in res.sections],
-        "warnings": res.warnings,
+        "warnings": notices.to_json(res.warnings),
         "problems": [str(p) for p in res.problems],
         "bias_adjustment_note": core.BIAS_ADJUSTMENT_NOTE,
         "files": [str(f) for f in files],
@@ -55,23 +56,17 @@ def result_json(res, caution: str, files=()) -> dict:
     }
 
 
-def csv_frame(res):
-    """One row per section, scenario and period, with every statistic and its change."""
-    import pandas as pd
+#: How ``outlook.csv`` names what a period's JSON nests (see :mod:`trackplan.tables`): each statistic's
+#: median, p10 and p90 as ``<statistic>_<quantile>``, its change as ``change_<statistic>_<quantile>``.
+CSV_NAMES = {**{st: st + "_{}" for st in core.STATS}, "change_from_baseline": "change_{}"}
 
-    rows = []
-    for s in res.sections:
-        for r in s.periods:
-            row = {"section": s.id, "name": s.name, "station": s.station, "scenario": r["scenario"],
-                   "period": r["period"], "baseline": r["baseline"], "models": r["models"]}
-            for st in core.STATS:
-                for q in ("median", "p10", "p90"):
-                    row[f"{st}_{q}"] = (r[st] or {}).get(q)
-                ck = st.replace("_C", "_K") if st.endswith("_C") else st
-                for q in ("median", "p10", "p90"):
-                    row[f"change_{ck}_{q}"] = (r["change_from_baseline"].get(ck) or {}).get(q)
-            rows.append(row)
-    return pd.DataFrame(rows)
+
+def csv_frame(res):
+    """``outlook.csv``: one row per section, scenario and period, the ``periods`` of the JSON flattened."""
+    from trackplan import tables
+
+    data = result_json(res, "")
+    return tables.frame(tables.table_rows(data["sections"], "periods", CSV_NAMES, carry=("name", "station")))
 
 
 def fan_figure(section, system: str = "si"):

@@ -67,7 +67,7 @@ class OutlookResult:
     engine: dict
     sections: list
     problems: list
-    warnings: list  # {"code", "message", "where"}
+    warnings: list  # trackplan.notices.Notice
     runs: list  # {"model", "scenario", "calendar", "files"}
     timings: dict
 
@@ -143,8 +143,10 @@ def section_spec(section, assessor, meta: dict, options: OutlookOptions) -> core
     )
 
 
-def _warning(code: str, message: str, where: str | None) -> dict:
-    return {"code": code, "message": message, "where": where}
+def _warning(code: str, message: str, where: str | None):
+    from trackplan.notices import Notice
+
+    return Notice(message, code, where)
 
 
 def run_outlook(sections, projections_dir, options: OutlookOptions, engine) -> OutlookResult:

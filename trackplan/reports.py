@@ -355,8 +355,9 @@ def rounded(frame):
             continue
         digits = next((d for suf, d in sorted(CSV_DECIMALS.items(), key=lambda kv: -len(kv[0]))
                        if str(col).endswith(suf)), None)
-        if digits is not None:
-            out[col] = out[col].round(digits)
+        if digits is not None:  # a small value (a probability per year) keeps 3 significant digits
+            small = (out[col] != 0) & (out[col].abs() < 10.0 ** (1 - digits))
+            out[col] = out[col].round(digits).where(~small, out[col].map(lambda v: float(f"{v:.3g}")))
         else:  # no unit suffix known, or a small coefficient (alpha_per_K): significant digits
             out[col] = out[col].map(lambda v: float(f"{v:.6g}") if v == v else v)
     return out

@@ -2,7 +2,8 @@
 
 from __future__ import annotations
 
-from trackplan import risk, risk_network
+from trackplan import notices, risk, risk_network
+from trackplan.notices import Notice
 
 
 #: What the probability covers and leaves out (terminal, JSON and docs/methods/risk.md say the same).
@@ -80,8 +81,8 @@ def result_json(result, problems_where=None) -> dict:
         "measure_first": [{"id": s.id, "action": s.first_action[0], "probability_drop": s.first_action[1]}
                           for s in ranked_actions(result)],
         "coverage": COVERAGE,
-        "warnings": [{"code": "bad_section", "message": p.bare_message if hasattr(p, "bare_message") else str(p),
-                      "where": getattr(p, "where", None)} for p in result.problems],
+        "warnings": notices.to_json(Notice(getattr(p, "bare_message", str(p)), "bad_section", getattr(p, "where", None))
+                                    for p in result.problems),
         "caution": CAUTION,
     }
 
@@ -91,24 +92,22 @@ def ranked_actions(result) -> list:
     return sorted(result.sections, key=lambda s: (-s.first_action[1], s.id))
 
 
+#: How ``risk_sections.csv`` names what a section's JSON nests (see :mod:`trackplan.tables`).
+CSV_NAMES = {"drivers": "drop_{}", "what_if": "probability_{}", "inputs": "{}"}
+
+#: An earlier name of a column, kept beside the JSON's name for scripts that read it.
+CSV_ALIASES = {"expected_buckles_each_year": "expected_buckles_per_year"}
+
+
 def rows(result) -> list[dict]:
-    """One CSV row per section (SI)."""
+    """``risk_sections.csv``: one row per section, its JSON flattened (inputs included; the probability of
+    each season is in the JSON only)."""
+    from trackplan import tables
+
     out = []
     for s in result.sections:
-        action, gain = s.first_action
-        out.append({
-            "section": s.id, "name": s.name, "probability_per_season": s.probability,
-            "standard_error": s.estimate.standard_error, "upper_95": s.estimate.upper_95,
-            # not "..._per_year": CSV columns with that ending are rounded to 2 decimals (trackplan.reports)
-            "expected_buckles_each_year": s.probability,
-            "probability_neutral_measured": s.measured.probability,
-            "probability_consolidated": None if s.consolidated is None else s.consolidated.probability,
-            "first_action": action, "first_action_gain": gain,
-            **{f"drop_{k}": v for k, v in s.drivers.items()},
-            "neutral_temperature_C": s.neutral_temperature_C, "neutral_sd_K": s.uncertainty.neutral_sd_K,
-            "years_since_neutral": s.uncertainty.years_since_neutral,
-            "buckling_rise_at_median_K": s.buckling_rise_K, "seasons": len(s.seasons), "station": s.station,
-        })
+        row = tables.flat_row(section_json(s), CSV_NAMES, leave_out=("season_probabilities",))
+        out.append({**row, **{old: row[new] for old, new in CSV_ALIASES.items()}})
     return out
 
 

@@ -107,13 +107,14 @@ def csv_rows(objs: Iterable[dict], names: dict | None = None, leave_out: Iterabl
 
 
 def table_rows(objs: Iterable[dict], key: str, names: dict | None = None,
-               leave_out: Iterable[str] = LEAVE_OUT) -> list[dict]:
+               leave_out: Iterable[str] = LEAVE_OUT, carry: Iterable[str] = ()) -> list[dict]:
     """The rows of a list of objects inside each JSON object (``annual`` of every section), each row
-    led by its object's ``section``."""
+    led by its object's ``section`` and the keys ``carry`` of that object (``name``, ``station``)."""
     out = []
     for o in objs:
+        lead = {"section": o.get("id"), **{k: o.get(k) for k in carry}}
         for item in o.get(key) or ():
-            out.append({"section": o.get("id"), **flat_row(item, names, leave_out)})
+            out.append({**lead, **flat_row(item, names, leave_out)})
     return out
 
 

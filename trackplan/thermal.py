@@ -286,3 +286,49 @@ def state(rise_K: float, tol_K: float = 1e-9) -> str:
     if rise_K < -tol_K:
         return "tension"
     return "neutral"
+
+
+@dataclass(frozen=True)
+class RestrainedRail:
+    """Force and stress of fully restrained rail at one rail temperature (``trackplan force``).
+
+    Attributes
+    ----------
+    rail_temperature_C : float
+        Rail temperature [degC].
+    rise_K : float
+        Rail temperature less neutral [K].
+    stress_Pa, force_per_rail_N : float
+        Thermal stress [Pa] and force per rail [N], compression positive.
+    breathing_length_m, end_movement_m : float or None
+        At a free end, with a longitudinal resistance given [m].
+    pull_apart_gap_m : float or None
+        Gap a break would open, in tension with a resistance given [m].
+    """
+
+    rail_temperature_C: float
+    rise_K: float
+    stress_Pa: float
+    force_per_rail_N: float
+    breathing_length_m: float | None = None
+    end_movement_m: float | None = None
+    pull_apart_gap_m: float | None = None
+
+    @property
+    def state(self) -> str:
+        return state(self.rise_K)
+
+
+def restrained_rail(rail_temperature_C: float, *, neutral_C: float, E_Pa: float, area_m2: float,
+                    alpha_per_K: float, resistance_N_per_m: float | None = None) -> RestrainedRail:
+    """Force and stress of restrained rail at a rail temperature; with a resistance [N/m] per rail, the
+    breathing length, end movement and (in tension) the break gap (:func:`thermal_force` and the others)."""
+    rise = float(rail_temperature_C) - float(neutral_C)
+    P = float(thermal_force(rise, E_Pa, area_m2, alpha_per_K))
+    sigma = float(thermal_stress(rise, E_Pa, alpha_per_K))
+    if resistance_N_per_m is None:
+        return RestrainedRail(float(rail_temperature_C), rise, sigma, P)
+    r = resistance_N_per_m
+    return RestrainedRail(float(rail_temperature_C), rise, sigma, P, float(breathing_length(P, r)),
+                          float(end_movement(P, E_Pa, area_m2, r)),
+                          float(pull_apart_gap(P, E_Pa, area_m2, r)) if P < 0 else None)

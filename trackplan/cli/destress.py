@@ -303,10 +303,9 @@ def destress_cmd(
     ]
 
     if as_json:
-        data = {"rail": profile.name, "steel": st.name, "site": site_name}
-        data.update(plan.as_json())
-        data["caution"] = CAUTION
-        emit_json(data)
+        from trackplan.command_json import destress_json
+
+        emit_json(destress_json(plan, rail=profile.name, steel=st.name, site=site_name))
         return
 
     figures = _figures(plan, s)

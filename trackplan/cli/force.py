@@ -8,7 +8,7 @@ from typing import List, Optional
 import typer
 from rich.table import Table
 
-from trackplan import rails, thermal, units
+from trackplan import command_json, rails, thermal, units
 from trackplan.cli.common import (
     JSON_OPTION,
     UNITS_OPTION,
@@ -21,7 +21,6 @@ from trackplan.cli.common import (
     print_caution,
 )
 from trackplan.errors import InputError
-from trackplan import CAUTION
 
 #: Plausible neutral temperatures [degC] (as section files) and rail temperatures [degC].
 NEUTRAL_RANGE_C = (-10.0, 60.0)
@@ -92,37 +91,12 @@ def force_cmd(
             raise InputError(f"{echo} is outside -60..90 degC, the range rail temperatures reach "
                              "(a unit slip? e.g. '60 degC' or '140 degF')", f"--at (#{i + 1})")
         echoes.append(echo)
-        rise = t - t_n
-        P = float(thermal.thermal_force(rise, st.E_Pa, profile.area_m2, st.alpha_per_K))
-        sigma = float(thermal.thermal_stress(rise, st.E_Pa, st.alpha_per_K))
-        row = {
-            "rail_temperature_C": t,
-            "rise_K": rise,
-            "stress_MPa": sigma / 1e6,
-            "force_per_rail_kN": P / 1e3,
-            "force_per_track_kN": 2 * P / 1e3,
-            "state": thermal.state(rise),
-        }
-        if r is not None:
-            row["breathing_length_m"] = float(thermal.breathing_length(P, r))
-            row["end_movement_mm"] = float(thermal.end_movement(P, st.E_Pa, profile.area_m2, r)) * 1e3
-            if P < 0:
-                row["pull_apart_gap_mm"] = float(thermal.pull_apart_gap(P, st.E_Pa, profile.area_m2, r)) * 1e3
-        results.append(row)
+        results.append(thermal.restrained_rail(t, neutral_C=t_n, E_Pa=st.E_Pa, area_m2=profile.area_m2,
+                                               alpha_per_K=st.alpha_per_K, resistance_N_per_m=r))
 
+    data = command_json.force_json(profile, st, t_n, results, r)
     if as_json:
-        out = {
-            "rail": profile.name,
-            "E_GPa": st.E_Pa / 1e9,
-            "alpha_per_K": st.alpha_per_K,
-            "area_cm2": profile.area_m2 * 1e4,
-            "neutral_temperature_C": t_n,
-            "results": results,
-            "caution": CAUTION,
-        }
-        if r is not None:
-            out["resistance_per_rail_kN_per_m"] = r / 1e3
-        emit_json(out)
+        emit_json(data)
         return
 
     s = system.value
@@ -150,12 +124,12 @@ def force_cmd(
     for head, *_ in cols:
         table.add_column(head, justify="right")
     table.add_column("state", no_wrap=True)
-    for row in results:
+    for row in data["results"]:
         cells = [units.number(row[key] * scale, kind, s, d) if key in row else "–" for _, kind, key, scale, d in cols]
         table.add_row(*cells, row["state"])
     console.print(table)
     if r is not None:
-        gaps = [row["pull_apart_gap_mm"] for row in results if "pull_apart_gap_mm" in row]
+        gaps = [row["pull_apart_gap_mm"] for row in data["results"] if "pull_apart_gap_mm" in row]
         if gaps and max(gaps) > 50.0:
             console.print(
                 f"[red]A break would open {units.fmt(max(gaps) / 1e3, 'short_length', s)}: more than the "

@@ -87,7 +87,7 @@ def print_table(res, system: str) -> None:
     console.print(f"Engine: Dask, scheduler {e['scheduler']}, {e['workers']} worker(s); "
                   f"{len(res.runs)} run(s).", highlight=False)
     for w in res.warnings:
-        console.print(f"warning [{w['code']}]: {w['message']}", highlight=False, markup=False)
+        console.print(f"warning [{w.code}]: {w}", highlight=False, markup=False)
 
 
 def write_outputs(out: Path, res, sections_file: Path, projections_dir: Path, system: str) -> list:

@@ -30,7 +30,9 @@ def profiles_cmd(
     extra = rails.load_user_profiles(profiles_file) if profiles_file is not None else None
     rows = rails.profile_rows(extra)
     if as_json:
-        emit_json({"profiles": [p.as_json() for p in rows]})
+        from trackplan.command_json import profiles_json
+
+        emit_json(profiles_json(rows))
         return
     s = system.value
     table = Table(title="Rail profiles", show_lines=False)

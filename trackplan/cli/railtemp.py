@@ -11,7 +11,7 @@ from rich.markup import escape
 from rich.panel import Panel
 from rich.table import Table
 
-from trackplan import CAUTION, names, rails, units
+from trackplan import names, rails, units
 from trackplan.cli.common import (
     ALLOW_SHORT_OPTION,
     COLUMN_OPTION,
@@ -132,6 +132,10 @@ def railtemp_cmd(
     made_good = ("no_coordinates",) if lat is not None and lon is not None else ()
     warnings = notices.merge(meta.get("warnings"), daily.attrs.get("warnings"), design.warnings, drop=made_good)
     station = meta.get("station") or Path(file).name
+    from trackplan.command_json import railtemp_json
+
+    data = railtemp_json(design, station, profile=profile, method=name, site=site, distribution=distribution,
+                         meta=meta, allow_short=allow_short, warnings=warnings)
 
     if out is not None:
         phase(f"writing files to {out}")
@@ -140,21 +144,10 @@ def railtemp_cmd(
                     ("rail", profile.name), ("track azimuth", f"{site.track_azimuth_deg:g} deg"),
                     ("shade", f"{site.shade_factor:g}"), ("method", name),
                     ("return period", f"{return_period:g} years"), ("distribution", distribution)]
-        _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, system.value, settings)
+        _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, system.value, settings, data)
 
     if as_json:
-        obj = design.as_json(station)
-        obj["design_max_rail_temperature_ci_C"] = list(design.max_ci_C) if design.max_ci_C else None
-        obj["design_min_rail_temperature_ci_C"] = list(design.min_ci_C) if design.min_ci_C else None
-        obj["ci_level"] = design.ci_level
-        obj["inputs"] = {"rail": profile.name, "method": name, "latitude_deg": site.latitude_deg,
-                         "longitude_deg": site.longitude_deg, "track_azimuth_deg": site.track_azimuth_deg,
-                         "shade_factor": site.shade_factor, "distribution": distribution,
-                         "tz": meta.get("tz"), "time_step": meta.get("time_step"),
-                         "time_step_s": meta.get("time_step_s"), "allow_short": allow_short}
-        obj["warnings"] = notices.to_json(warnings)
-        obj["caution"] = CAUTION
-        emit_json(obj)
+        emit_json(data)
         return
     _print(design, station, meta, site, profile, name, warnings, system.value, out)
 
@@ -219,7 +212,9 @@ def _print(design, station, meta, site, profile, method, warnings, s, out) -> No
     print_caution()
 
 
-def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s, meta_rows=()) -> None:
+def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s, meta_rows, data) -> None:
+    """The hourly and daily rail temperatures (series), annual_extremes.csv (the ``annual`` of the JSON
+    ``data``, flattened) and the plots."""
     import numpy as np
     import pandas as pd
 
@@ -249,7 +244,9 @@ def _write_outputs(out_dir, file, df, meta, daily, hourly, design, station, s, m
     dframe.columns = ["date", *daily.columns]
     dframe["date"] = pd.DatetimeIndex(dframe["date"]).strftime("%Y-%m-%d")
     reports.write_csv(out_dir / "rail_temperature_daily.csv", dframe.round(2), inputs, meta_rows)
-    reports.write_csv(out_dir / "annual_extremes.csv", design.annual.round(2), inputs, meta_rows)
+    from trackplan import tables
+
+    reports.write_csv(out_dir / "annual_extremes.csv", tables.frame(tables.csv_rows(data["annual"])), inputs, meta_rows)
 
     reports.matplotlib_backend()
     import matplotlib.pyplot as plt

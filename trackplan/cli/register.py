@@ -16,7 +16,7 @@ import typer
 from rich.markup import escape
 from rich.table import Table
 
-from trackplan import CAUTION, units
+from trackplan import command_json, units
 from trackplan.cli.common import (JSON_OPTION, UNITS_OPTION, UnitSystem, app, command, console, emit_json,
                                   parse_option, print_caution)
 from trackplan.errors import InputError
@@ -81,7 +81,7 @@ def import_cmd(
     reg = _open(db, create=True)
     counts = reg.import_sections(sf.sections, who, sections_file.name)
     if as_json:
-        emit_json({"db": str(reg.path), **counts})
+        emit_json(command_json.register_import_json(reg.path, counts))
         return
     console.print(f"{reg.path}: {counts['sections_added']} section(s) and {counts['entries_added']} entries added; "
                   f"{counts['entries_present']} entries were already there.", highlight=False)
@@ -153,17 +153,7 @@ def log_cmd(
     s = system.value
     if as_json:
         written = next(e for e in reg.history(entry.section_id).entries if e.id == new_id)
-        out = {"id": new_id, "section": entry.section_id, "entry": written.as_json()}
-        if achieved is not None:
-            out["achieved"] = {
-                "neutral_temperature_C": achieved.neutral_temperature_C, "uncertainty_K": achieved.uncertainty_K,
-                "base_temperature_C": achieved.base_temperature_C, "target_neutral_temperature_C": plan.target_neutral_C,
-                "lowest_segment_neutral_temperature_C": achieved.lowest_segment_C,
-                "per_mark_neutral_temperature_C": achieved.per_mark_C,
-                "uncertainty_components_K": achieved.components_K,
-            }
-        out["caution"] = CAUTION
-        emit_json(out)
+        emit_json(command_json.register_log_json(new_id, entry, written, achieved, plan if achieved else None))
         return
     console.print(f"Entry {new_id} added to section {escape(entry.section_id)} ({entry.kind}).", highlight=False)
     if achieved is not None:
@@ -285,10 +275,7 @@ def history_cmd(
         written = _write_history(reg, h, out, s)
     latest = h.latest_neutral
     if as_json:
-        emit_json({"section": section, "entries": [e.as_json() for e in h.entries],
-                   "latest_neutral_entry_id": latest.id if latest else None,
-                   "latest_neutral_temperature_C": latest.neutral_temperature_C if latest else None,
-                   "last_verified": h.last_verified, "files": [str(p) for p in written], "caution": CAUTION})
+        emit_json({**command_json.register_history_json(section, h), "files": [str(p) for p in written]})
         return
     info = reg.section_info(section)
     table = Table(title=f"Neutral-temperature history: {section} {info['name']}")
@@ -316,12 +303,13 @@ def history_cmd(
 
 
 def _write_history(reg, h, out: Path, s: str) -> list[Path]:
-    from trackplan import register_report, reports
+    """history_<id>.png and history_<id>.csv (the entries of the history JSON, flattened; values as stored)."""
+    from trackplan import register_report, reports, tables
 
     reports.matplotlib_backend()
     safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in h.section_id)
     folder = reports.prepare_out_dir(out, [reg.path], planned=[f"history_{safe}.png", f"history_{safe}.csv"])
-    rows = [e.as_json() for e in h.entries]
+    rows = tables.csv_rows(command_json.register_history_json(h.section_id, h)["entries"])
     cols = list(rows[0]) if rows else ["id"]
     csv_path = reports.write_text(folder / f"history_{safe}.csv",
                                   register_report.csv_text(cols, [tuple(r[c] for c in cols) for r in rows]), [reg.path])
@@ -349,7 +337,7 @@ def due_cmd(
     reg = _open(db)
     rows = register.due(reg.histories(), dt.date.today(), days)
     if as_json:
-        emit_json({"sections": rows, "older_than_days": days, "caution": CAUTION})
+        emit_json(command_json.register_due_json(rows, days))
         return
     table = Table(title=f"Sections due for a neutral-temperature check (period {older_than})")
     for name in ("section", "last set or measured", "reason"):
@@ -401,8 +389,7 @@ def verify_cmd(
     problems = reg.verify()
     n = len(reg.entries())
     if as_json:
-        emit_json({"db": str(reg.path), "ok": not problems, "entries": n, "sections": len(reg.section_ids()),
-                   "problems": problems})
+        emit_json(command_json.register_verify_json(reg.path, problems, n, len(reg.section_ids())))
     else:
         for p in problems:
             console.print(f"[bold red]problem:[/] {escape(p)}", highlight=False)

@@ -389,7 +389,7 @@ def screen_cmd(
 
     Example: trackplan screen examples/network.toml --months 5-9 --warming "1.5 K" --out screen-report
     """
-    from trackplan import screening, screening_tables
+    from trackplan import screening_tables
 
     options = build_options(date_from, date_to, months, warming, neutral_override, watch_fraction, system.value, season)
     result = run_screen(sections_file, options, strict, register, column, tz, scheduler)

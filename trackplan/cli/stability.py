@@ -8,7 +8,7 @@ from typing import Optional
 import typer
 from rich.table import Table
 
-from trackplan import CAUTION, names, rails, thermal, track, units
+from trackplan import names, rails, thermal, track, units
 from trackplan.cli.common import (
     JSON_OPTION,
     UNITS_OPTION,
@@ -187,19 +187,17 @@ def stability_cmd(
         inputs = [profiles_file] if profiles_file else []
         out_dir = reports.prepare_out_dir(out, inputs)
         files.append(_plot(result, out_dir, s, inputs, _case(profile.name, sleeper, ballast, shoulder, result.inputs, s)))
-        frame = pd.DataFrame({"lateral_displacement_mm": result.curve_displacement_m * 1e3,
-                              "rise_K": result.curve_rise_K})
+        frame = pd.DataFrame(result.as_json()["curve"])  # the JSON's equilibrium curve, one row per point
         files.append(reports.write_csv(out_dir / "stability_curve.csv", frame, inputs, [
             ("command", "trackplan stability"),
             ("track", _case(profile.name, sleeper, ballast, shoulder, result.inputs, "si")),
             ("allowable rise criterion", result.criterion)]))
 
     if as_json:
-        data = {"rail": profile.name, "sleeper": sleeper, "ballast": ballast, "shoulder": shoulder}
-        data.update(result.as_json())
-        data["files"] = [str(f) for f in files]
-        data["caution"] = CAUTION
-        emit_json(data)
+        from trackplan.command_json import stability_json
+
+        emit_json({**stability_json(result, rail=profile.name, sleeper=sleeper, ballast=ballast, shoulder=shoulder),
+                   "files": [str(f) for f in files]})
         return
 
     inp = result.inputs
