@@ -49,7 +49,7 @@ def dask_cluster():
 # --------------------------------------------------------------------------
 
 #: JSON objects keyed by data (levels, inputs, sections, models), not by names: their keys are not vocabulary.
-KEYED_BY_DATA = ("days_per_year", "heat_days_by_level", "drivers", "models", "sections_by_id")
+KEYED_BY_DATA = ("days_per_year", "heat_days_by_level", "drivers", "chart")
 
 
 def glossary_names() -> set:

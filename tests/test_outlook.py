@@ -351,7 +351,7 @@ def test_tabulated_rail_path_equals_the_direct_daily_extremes_path():
     assert outlook.reference_days([180], [360])[0] == 182
 
 
-def test_cli_on_an_existing_scheduler_json_and_files(run_cli, dask_cluster, ensemble, sections, tmp_path):
+def test_cli_on_an_existing_scheduler_json_and_files(run_cli, dask_cluster, ensemble, sections, tmp_path, vocabulary):
     import json
 
     toml = tmp_path / "one.toml"
@@ -377,6 +377,12 @@ drift_allowance = "5 K"
     names = sorted(p.name for p in (tmp_path / "out").iterdir())
     assert [n for n in names if n.startswith("outlook")] == ["outlook.csv", "outlook_HOT.png", "outlook_summary.html"]
     assert (tmp_path / "out" / "outlook_HOT.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    # one vocabulary: every key a glossary name; outlook.csv is the periods of the JSON flattened
+    from trackplan import outlook_report, tables
+
+    vocabulary.assert_glossary_keys(d)
+    vocabulary.assert_csv_is_flat_json(tmp_path / "out" / "outlook.csv", [
+        {"id": s["id"], "name": s["name"], "station": s["station"], **p} for p in s["periods"]], outlook_report.CSV_NAMES)
 
 
 def test_baseline_of_the_demo_ensemble_agrees_with_screen_on_the_station_record(dask_cluster):

@@ -44,7 +44,7 @@ def force_json(profile, steel, neutral_C: float, results, resistance_N_per_m: fl
         "caution": CAUTION,
     }
     if resistance_N_per_m is not None:
-        out["resistance_per_rail_kN_per_m"] = resistance_N_per_m / 1e3
+        out["longitudinal_resistance_kN_per_m"] = resistance_N_per_m / 1e3
     return out
 
 

@@ -351,9 +351,9 @@ class DestressPlan:
             "pulled_lengths_m": list(self.pulled_lengths_m),
             "rail_temperature_C": self.rail_temperature_C,
             "target_neutral_temperature_C": self.target_neutral_C,
-            "current_neutral_temperature_C": self.current_neutral_C,
+            "known_neutral_temperature_C": self.current_neutral_C,
             "adjustment_K": self.adjustment_K,
-            "rise_K": self.rise_K,
+            "tensor_rise_K": self.rise_K,
             "extension_mm": self.extension_m * 1e3,
             "weld": self.weld_name,
             "weld_allowance_mm": self.weld_allowance_m * 1e3,
@@ -388,8 +388,7 @@ class DestressPlan:
             out["closure_length_mm"] = self.closure_length_m * 1e3
             out["freed_length_m"] = self.freed_length_m
         if self.mode == "heating":
-            out["heating_temperature_C"] = self.heating_temperature_C
-            out["free_expansion_mm"] = self.extension_m * 1e3
+            out["heating_temperature_C"] = self.heating_temperature_C  # the free expansion is extension_mm
         if self.achieved_neutral_C is not None:
             out["observed_movement_mm"] = self.observed_movement_m * 1e3
             out["at_mark_m"] = self.at_mark_m

@@ -14,9 +14,9 @@ Flattening rules (one row per JSON object):
   entry) takes the object's name: ``probability_per_season.standard_error`` ->
   ``standard_error``, ``probability_per_season.value`` -> ``probability_per_season``;
 * where a command's entries would collide, or are keyed by a category (a level, an
-  input), the builder names them with a template of the entry's key:
-  ``{"days_per_year": "{}_days_per_year"}`` gives ``watch_days_per_year``; below a
-  templated entry the names are ``<entry's name>_<key>``;
+  input), the builder names them with a template of the entry's key, by the nested
+  object's key: ``{"days_per_year": "{}_days_per_year"}`` gives ``watch_days_per_year``;
+  below a templated entry the names are ``<entry's name>_<key>``;
 * a ``[low, high]`` interval (a key with ``range``, ``window`` or ``ci`` before its unit)
   becomes two columns ``<name>_low_<unit>`` and ``<name>_high_<unit>``; another list of
   numbers one cell of numbers separated by spaces (``months``: ``5 6 7 8 9``); a list of
@@ -90,7 +90,7 @@ def flat_row(obj: dict, names: dict | None = None, leave_out: Iterable[str] = LE
             else:
                 col = k
             if isinstance(v, dict):
-                sub = names.get(k) or (col + "_{}" if template is not None else None)
+                sub = col + "_{}" if template is not None else names.get(k)
                 walk(v, col, sub)
             elif isinstance(v, (list, tuple)):
                 _cell_of_list(col, list(v), put)
