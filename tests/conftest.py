@@ -87,7 +87,7 @@ def assert_glossary_keys(obj) -> None:
 
 
 def assert_csv_is_flat_json(csv_path, objs: list[dict], names: dict | None = None, leave_out=None,
-                            aliases: dict | None = None) -> None:
+                            aliases: dict | None = None, by_section: bool = False) -> None:
     """The CSV's columns are the flattened keys of the command's JSON objects ``objs`` (trackplan.tables,
     with the command's ``names`` and ``leave_out``), in order, and each cell holds the JSON's value (numbers
     to the CSV's rounding). ``aliases``: earlier column names kept after them (old -> JSON name)."""
@@ -101,6 +101,9 @@ def assert_csv_is_flat_json(csv_path, objs: list[dict], names: dict | None = Non
     rows = [{**r, **{old: r[new] for old, new in (aliases or {}).items()}} for r in rows]
     df = pd.read_csv(csv_path, comment="#", keep_default_na=False, dtype=str)
     assert rows, "no JSON rows to compare"
+    if by_section:  # the same sections, another order (a run ranked otherwise)
+        rows = sorted(rows, key=lambda r: r["section"])
+        df = df.sort_values("section", kind="stable")
     assert list(df.columns) == list(rows[0]), (list(df.columns), list(rows[0]))
     assert len(df) == len(rows)
     for (_, got), want in zip(df.iterrows(), rows):

@@ -129,9 +129,12 @@ def test_check_terminal_fits_100_columns_with_actions(demo_out):
     assert flagged >= 3 and sum(ln.strip().startswith("action:") for ln in lines) == flagged
 
 
-def test_target_json(run_cli):
-    res, d = run_cli("target", str(EXAMPLE), "--json", json_out=True)
+def test_target_json(run_cli, tmp_path, vocabulary):
+    res, d = run_cli("target", str(EXAMPLE), "--json", "--out", tmp_path / "t", json_out=True)
     assert res.exit_code == 0
+    # one vocabulary: every key a glossary name; target.csv is the JSON's sections flattened
+    vocabulary.assert_glossary_keys(d)
+    vocabulary.assert_csv_is_flat_json(tmp_path / "t" / "target.csv", d["sections"])
     rows = {s["id"]: s for s in d["sections"]}
     need = {"id", "target_neutral_temperature_C", "laying_range_C", "feasible_window_C", "feasible",
             "design_max_rail_temperature_C", "design_min_rail_temperature_C", "allowable_rise_K",
@@ -157,9 +160,12 @@ def test_target_json(run_cli):
     assert d["caution"]
 
 
-def test_check_exit_code_and_json(run_cli):
+def test_check_exit_code_and_json(run_cli, demo_out, vocabulary):
     res, d = run_cli("check", str(EXAMPLE), "--json", json_out=True)
     assert res.exit_code == 1  # some sections are 'act' (documented exit code for scripts)
+    # one vocabulary: every key a glossary name; the demo's check.csv is this JSON's sections flattened
+    vocabulary.assert_glossary_keys(d)
+    vocabulary.assert_csv_is_flat_json(demo_out[0] / "check.csv", d["sections"], by_section=True)
     s0 = d["sections"][0]
     assert {"id", "verdict", "reasons", "current_neutral_temperature_C", "max_compression_force_per_rail_kN",
             "heat_margin_K", "max_tension_force_per_rail_kN", "pull_apart_gap_mm"} <= set(s0)

@@ -76,10 +76,14 @@ def test_json_hourly_30_years():
     assert js["caution"] == CAUTION
 
 
-def test_json_daily_record_gev():
-    r = _run(SAMPLES / "quennick_sands_daily.csv.gz", "--distribution", "gev", "--return-period", "25", "--json")
+def test_json_daily_record_gev(tmp_path, vocabulary):
+    r = _run(SAMPLES / "quennick_sands_daily.csv.gz", "--distribution", "gev", "--return-period", "25", "--json",
+             "--out", tmp_path / "o")
     assert r.exit_code == 0, r.output
     js = json.loads(r.stdout)
+    # one vocabulary: every key a glossary name; annual_extremes.csv is the JSON's annual extremes
+    vocabulary.assert_glossary_keys(js)
+    vocabulary.assert_csv_is_flat_json(tmp_path / "o" / "annual_extremes.csv", js["annual"])
     assert js["design_basis"] == "gev" and js["return_period_years"] == 25.0
     # daily-extremes path: rail minimum = air minimum (docs/methods/rail-temperature.md)
     assert all(a["min_rail_temperature_C"] == a["min_air_temperature_C"] for a in js["annual"])

@@ -45,9 +45,10 @@ def _count(path) -> int:
         return c.execute("SELECT count(*) FROM entries").fetchone()[0]
 
 
-def test_import_idempotent_and_history_json(run_cli, db):
+def test_import_idempotent_and_history_json(run_cli, db, vocabulary):
     n = _count(db)
     res, d = run_cli("register", "import", EXAMPLE, "--by", "J. Okafor", "--db", db, "--json", json_out=True)
+    vocabulary.assert_glossary_keys(d)
     assert d["entries_added"] == 0 and d["entries_present"] == n and _count(db) == n
     res, d = run_cli("register", "history", "KP-101", "--db", db, "--json", json_out=True)
     assert d["section"] == "KP-101" and d["caution"] == CAUTION
@@ -58,7 +59,7 @@ def test_import_idempotent_and_history_json(run_cli, db):
     assert (e["kind"], e["date"], e["neutral_temperature_C"]) == ("destressed", "2021-05-18", 44.0)
 
 
-def test_log_measured_then_history_table_and_plot(run_cli, db, tmp_path):
+def test_log_measured_then_history_table_and_plot(run_cli, db, tmp_path, vocabulary):
     res = run_cli("register", "log", "KP-101", "--kind", "measured", "--date", "2024-05-20", "--neutral", "31 degC",
                   "--uncertainty", "2 K", "--method", "rail uplift", "--by", "A. Byrne", "--db", db)
     assert res.exit_code == 0, res.output
@@ -75,6 +76,11 @@ def test_log_measured_then_history_table_and_plot(run_cli, db, tmp_path):
     assert (out / "history_KP-101.png").stat().st_size > 10000
     rows = list(csv.DictReader((out / "history_KP-101.csv").open()))
     assert [r["kind"] for r in rows] == ["destressed", "tamped", "measured", "measured"]
+    # one vocabulary: every key a glossary name; the history CSV is the JSON's entries
+    vocabulary.assert_glossary_keys(d)
+    res, h = run_cli("register", "history", "KP-101", "--db", db, "--json", json_out=True)
+    vocabulary.assert_glossary_keys(h)
+    vocabulary.assert_csv_is_flat_json(out / "history_KP-101.csv", h["entries"])
 
 
 @pytest.mark.parametrize("args, words", [
@@ -124,7 +130,7 @@ reading_uncertainty = "1 mm"
 """
 
 
-def test_log_job_inverse_matches_the_destress_forward_calculation(run_cli, db, tmp_path):
+def test_log_job_inverse_matches_the_destress_forward_calculation(run_cli, db, tmp_path, vocabulary):
     # the crew observed the movements a pull to 25.0 degC gives (the destress forward calculation)
     xs = np.array([100.0, 200.0, 300.0, 400.0])
     st = thermal.default_steel(rails.get_profile("60E1").is_north_american)
@@ -142,6 +148,7 @@ def test_log_job_inverse_matches_the_destress_forward_calculation(run_cli, db, t
     # uniform pull: base temperature 1 K and one 1 mm reading over 400 m, in quadrature
     assert e["uncertainty_K"] == pytest.approx(np.hypot(1.0, 1e-3 / (st.alpha_per_K * 400.0)), abs=1e-3)
     assert d["achieved"]["target_neutral_temperature_C"] == 27.0 and d["caution"] == CAUTION
+    vocabulary.assert_glossary_keys(d)
     res, h = run_cli("register", "history", "KP-102", "--db", db, "--json", json_out=True)
     assert h["latest_neutral_entry_id"] == d["id"]
     # the job file's options cannot be mixed with typed ones
@@ -171,8 +178,9 @@ def test_log_job_bad_input_exit_2_nothing_written(run_cli, db, tmp_path, old, ne
     assert _count(db) == n
 
 
-def test_due_export_verify_and_env(run_cli, db, tmp_path, monkeypatch):
+def test_due_export_verify_and_env(run_cli, db, tmp_path, monkeypatch, vocabulary):
     res, d = run_cli("register", "due", "--older-than", "5y", "--db", db, "--json", json_out=True)
+    vocabulary.assert_glossary_keys(d)
     ids = {r["id"]: r for r in d["sections"]}
     assert set(ids["KP-102"]) >= {"id", "reason", "last_verified"} and ids["KP-102"]["last_verified"] == "2012-09-03"
     assert "tamped" in ids["GQ-202"]["reason"] and d["caution"] == CAUTION
@@ -187,6 +195,7 @@ def test_due_export_verify_and_env(run_cli, db, tmp_path, monkeypatch):
     monkeypatch.setenv("TRACKPLAN_DB", str(db))
     res, v = run_cli("register", "verify", "--json", json_out=True)
     assert res.exit_code == 0 and v["ok"] and v["entries"] == len(rows)
+    vocabulary.assert_glossary_keys(v)
 
 
 def test_import_refuses_a_file_with_a_bad_section_and_verify_finds_problems(run_cli, db, tmp_path):

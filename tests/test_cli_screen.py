@@ -120,7 +120,7 @@ def _expected(daily, st, p, track, tn, tamped=False, months=None, warming=0.0):
         int(cold.sum()), rise
 
 
-def test_real_record_counts_json_and_csv(run_cli, tmp_path, greensboro):
+def test_real_record_counts_json_and_csv(run_cli, tmp_path, greensboro, vocabulary):
     daily, st, p, track, neutrals = greensboro
     f = _write_sections(tmp_path / "gb.toml", neutrals)
     res, data = run_cli("screen", f, "--json", "--out", tmp_path / "out", json_out=True)
@@ -153,6 +153,15 @@ def test_real_record_counts_json_and_csv(run_cli, tmp_path, greensboro):
     assert list(flagged.columns) == ["section", "date", "level", "rail_temperature_C", "neutral_temperature_C",
                                      "rise_K", "allowable_rise_K"]
     assert "caution" in data and data["settings"]["watch_fraction"] == 0.8
+    # one vocabulary: every key a glossary name; the summary and the annual counts are the JSON flattened
+    from trackplan import screening_tables
+
+    vocabulary.assert_glossary_keys(data)
+    vocabulary.assert_csv_is_flat_json(tmp_path / "out" / "screen_summary.csv", data["sections"],
+                                       screening_tables.SUMMARY_NAMES, ("warnings", "caution", "files", "problems",
+                                                                        "inputs", "annual"))
+    vocabulary.assert_csv_is_flat_json(tmp_path / "out" / "annual_counts.csv", [
+        {"id": s["id"], **a} for s in data["sections"] for a in s["annual"]])
     for name in ("flagged_timeline.png", "annual_counts.png", "screen_summary.csv"):
         assert (tmp_path / "out" / name).stat().st_size > 1000
 

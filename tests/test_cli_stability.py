@@ -46,7 +46,7 @@ def test_stability_overrides_apply(run_cli):
     assert b["lower_critical_rise_K"] < a["lower_critical_rise_K"]
 
 
-def test_stability_terminal_and_out(run_cli, tmp_path):
+def test_stability_terminal_and_out(run_cli, tmp_path, vocabulary):
     out = tmp_path / "res"
     res = run_cli("stability", "--rail", "60E1", "--sleeper", "steel", "--ballast", "disturbed", "--out", out)
     assert res.exit_code == 0, res.output
@@ -56,6 +56,9 @@ def test_stability_terminal_and_out(run_cli, tmp_path):
     text = (out / "stability_curve.csv").read_text()
     assert text.startswith("# command: trackplan stability\n# track: 60E1, steel sleepers, disturbed ballast")
     assert [ln for ln in text.splitlines() if not ln.startswith("#")][0] == "lateral_displacement_mm,rise_K"
+    # the CSV is the JSON's equilibrium curve, flattened
+    _, d = run_cli("stability", "--rail", "60E1", "--sleeper", "steel", "--ballast", "disturbed", "--json", json_out=True)
+    vocabulary.assert_csv_is_flat_json(out / "stability_curve.csv", d["curve"])
 
 
 def test_stability_us_units_bare_numbers(run_cli):

@@ -94,6 +94,8 @@ def flat_row(obj: dict, names: dict | None = None, leave_out: Iterable[str] = LE
                 walk(v, col, sub)
             elif isinstance(v, (list, tuple)):
                 _cell_of_list(col, list(v), put)
+            elif v is None and _INTERVAL.match(col):  # no interval: both ends empty, the same columns
+                _cell_of_list(col, [None, None], put)
             else:
                 put(col, v)
 
