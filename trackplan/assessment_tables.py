@@ -111,6 +111,16 @@ def target_json(a) -> dict:
     }
 
 
+def network_json(kind: str, assessments, problems, files=()) -> dict:
+    """JSON of ``check`` (``kind="check"``) or ``target`` over a section file: the sections, the
+    problems, the files written and the caution."""
+    from trackplan import CAUTION
+
+    one = check_json if kind == "check" else target_json
+    return {"sections": [one(a) for a in assessments], "problems": [str(p) for p in problems],
+            "files": [str(p) for p in files], "caution": CAUTION}
+
+
 def check_rows(assessments) -> list[dict]:
     """``check.csv``: one row per assessed section, its check JSON flattened (:mod:`trackplan.tables`)."""
     from trackplan import tables

@@ -11,7 +11,7 @@ from rich.markup import escape
 from rich.table import Table
 
 from trackplan import CAUTION, __version__, units
-from trackplan.assessment_tables import check_json
+from trackplan.assessment_tables import network_json
 from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
                                   command, console, emit_json, print_caution, wide_console)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
@@ -151,8 +151,7 @@ def check_cmd(
     settings = check_settings(return_period, distribution, system.value)
     written = write_check_outputs(out, results, sections_file, system.value, settings) if out is not None else []
     if as_json:
-        emit_json({"sections": [check_json(a) for a in results], "problems": [str(p) for p in problems],
-                   "files": [str(p) for p in written], "caution": CAUTION})
+        emit_json(network_json("check", results, problems, written))
     else:
         print_checks(results, system.value, wide)
         print_network_footer(results, register, written, "check_summary.html")

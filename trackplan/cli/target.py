@@ -8,8 +8,8 @@ from typing import Optional
 import typer
 from rich.table import Table
 
-from trackplan import CAUTION, units
-from trackplan.assessment_tables import target_json
+from trackplan import units
+from trackplan.assessment_tables import network_json
 from trackplan.cli.common import (ALLOW_SHORT_OPTION, COLUMN_OPTION, JSON_OPTION, TZ_OPTION, UNITS_OPTION, UnitSystem,
                                   command, console, emit_json, print_caution)
 from trackplan.cli.network import (DISTRIBUTION_OPTION, PRIORITY_OPTION, REGISTER_OPTION, RETURN_PERIOD_OPTION,
@@ -131,8 +131,7 @@ def target_cmd(
     written = write_target_outputs(out, results, sections_file, system.value, return_period, distribution,
                                    priority, register) if out is not None else []
     if as_json:
-        emit_json({"sections": [target_json(a) for a in results], "problems": [str(p) for p in problems],
-                   "files": [str(p) for p in written], "caution": CAUTION})
+        emit_json(network_json("target", results, problems, written))
     else:
         print_targets(results, system.value)
         print_network_footer(results, register, written, "target_summary.html")
