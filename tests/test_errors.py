@@ -1,5 +1,6 @@
 """The error tree: bad input and model errors are reported as plain messages, never as tracebacks."""
 
+import pickle
 from pathlib import Path
 
 import numpy as np
@@ -103,3 +104,17 @@ def test_a_zone_given_for_the_record_is_placed_at_its_option_or_section_field(ru
                                      '[sections.A]\nneutral_temperature = "30 degC"\ntz = "UTC+99"\n')
     res = run_cli("check", tmp_path / "n.toml")
     assert res.exit_code == 2 and "n.toml [sections.A] tz: time zone offset 'UTC+99'" in res.output
+
+
+def test_advice_names_a_field_and_the_command_line_its_option():
+    """Computation modules refer to a value the user gives by its field (errors.option_ref); the command
+    line writes the option that carries it, a caller without options the field's name."""
+    from trackplan import errors
+    from trackplan.notices import Notice
+
+    exc = InputError(f"give {errors.option_ref('months')} or a latitude", "r.csv")
+    assert str(exc) == "r.csv: give months or a latitude"
+    assert str(exc.relocated("s.toml [sections.A]", {"months": "--months"}.get)) == \
+        "s.toml [sections.A]: give --months or a latitude"
+    n = Notice(f"use {errors.option_ref('season')} summer", "winter_months", "months")
+    assert str(n) == "use season summer" and pickle.loads(pickle.dumps(n)) == n

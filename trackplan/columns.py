@@ -29,7 +29,10 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
-from trackplan.errors import InputError, UnitKindError, excerpt
+from trackplan.errors import InputError, UnitKindError, excerpt, option_ref
+
+#: Where advice names the column mapping or the zone the user gives (the command line's --column, --tz).
+_COLUMN, _TZ = option_ref("column"), option_ref("tz")
 
 #: Quantity names a mapping may use -> canonical column (``time`` is the timestamp column).
 CANONICAL = {
@@ -219,7 +222,7 @@ def resolve_header(names: list[str], mapping: dict[str, ColumnMap] | None, quant
                 break
     if time_index is None:
         raise InputError("no timestamp column; name it 'time' or 'date', or map it with "
-                         f"--column \"time=COLUMN\" (the columns are: {_column_list(names)})",
+                         f"{_COLUMN} \"time=COLUMN\" (the columns are: {_column_list(names)})",
                          where_header)
     mapped_cols = {quantities[n].column if n in quantities else CANONICAL[n] for n, _, _ in taken.values()}
     ignored = []
@@ -244,7 +247,7 @@ def resolve_header(names: list[str], mapping: dict[str, ColumnMap] | None, quant
         col = q.column
         if col in seen:
             raise InputError(f"two columns for {col}: {excerpt(seen[col])} and {excerpt(names[i])}; map the one to read "
-                             f"with --column, e.g. \"{name}={names[i]} [{unit}]\"", w)
+                             f"with {_COLUMN}, e.g. \"{name}={names[i]} [{unit}]\"", w)
         seen[col] = names[i]
         cols[names[i]] = (name, unit, w)
     return Header(time_index, cols, ignored)
@@ -266,7 +269,7 @@ def proposal(missing: list[str], ignored: list[str], step: str) -> str:
     for q in missing:
         for h in ignored:
             if recognised(h) == q:
-                props.append(f'--column "{q}={_SOURCE_RE.match(h).group(1).strip()} [degC]"')
+                props.append(f'{_COLUMN} "{q}={_SOURCE_RE.match(h).group(1).strip()} [degC]"')
                 break
     if not props:
         return ""
@@ -380,21 +383,21 @@ def csv_keep(used: dict, cand: dict, ignored: list, names: list, step_kind: str,
                 if recognised(h) == n and not _SOURCE_RE.match(h).group(2):
                     raise InputError(
                         f"column {excerpt(h)} has no unit (read as {n}); write its unit with "
-                        f'--column "{n}={_SOURCE_RE.match(h).group(1).strip()} [degC]" (or [degF], [K]: '
+                        f'{_COLUMN} "{n}={_SOURCE_RE.match(h).group(1).strip()} [degC]" (or [degF], [K]: '
                         "the unit the file's source states; a unit is never guessed)",
                         f"{where_header} column {names.index(h) + 1} {excerpt(h)}")
         wanted = "air_temperature" if step_kind == "hourly" else "tmax and tmin"
         raise InputError(f"no column for {', '.join(missing)}: a {step_kind} record (from its timestamps) needs "
-                         f"{wanted} with a unit; map them with --column, e.g. "
+                         f"{wanted} with a unit; map them with {_COLUMN}, e.g. "
                          + ('"air_temperature=temp [degC]"' if step_kind == "hourly"
-                            else '"tmax=temp_max [degC]" --column "tmin=temp_min [degC]"'),
+                            else f'"tmax=temp_max [degC]" {_COLUMN} "tmin=temp_min [degC]"'),
                          where_header)
     if ignored:
         bare = [h for h in ignored if not _SOURCE_RE.match(h).group(2) and (recognised(h) or norm(h) in CANONICAL)]
         ctx.warn("column(s) ignored, not used: " + ", ".join(repr(h) for h in ignored)
                  + (f"; {', '.join(repr(h) for h in bare)} name(s) a quantity but give no unit, so are not read"
                     if bare else "")
-                 + " (map a column with --column QUANTITY=\"COLUMN [UNIT]\" to read it)", code="ignored_columns")
+                 + f" (map a column with {_COLUMN} QUANTITY=\"COLUMN [UNIT]\" to read it)", code="ignored_columns")
     return out
 
 
@@ -414,7 +417,7 @@ def zone_text(tz_text, tz_where, ctx, step_kind: str = "hourly"):
     if step_kind == "daily":  # local dates: the zone is only reported
         return text, "site longitude"
     ctx.warn(f"the file states no time zone; naive timestamps read as {text}, the nominal zone of the site's "
-             f"longitude {ctx.site_lon:g} (give --tz, or tz in the section file, to be sure)", code="time_zone")
+             f"longitude {ctx.site_lon:g} (give {_TZ}, or tz in the section file, to be sure)", code="time_zone")
     return text, "site longitude"
 
 

@@ -16,15 +16,39 @@ fault in trackplan (exit code 3).
 
 Computation modules name *fields* (``length``, ``rail_temperature``), never
 command-line options: the command line (or the section reader) puts the
-option, or the file and section, in front (:meth:`InputError.relocated`).
+option, or the file and section, in front (:meth:`InputError.relocated`). Advice
+in a message that points at a value the user can give is written with
+:func:`option_ref` (``{option:season}``): it reads as the field's name, and the
+command line shows the option that carries it (``--season``) (:func:`render`).
 """
 
 from __future__ import annotations
+
+import re
 
 #: Longest excerpt of a file's content quoted in a message [characters].
 EXCERPT_CHARS = 32
 #: Longest place (a path, a section, a field) shown in a message [characters]; longer ones are cut.
 MAX_WHERE_CHARS = 160
+
+
+_OPTION_REF = re.compile(r"\{option:([A-Za-z_]+)\}")
+
+
+def option_ref(field: str) -> str:
+    """A reference, in a message or warning, to the value the user gives as ``field`` (see :func:`render`)."""
+    return "{option:" + field + "}"
+
+
+#: Set by the command line while a command runs: field -> the option that carries it (or None).
+OPTION_OF = None
+
+
+def render(text: str, option_of=None) -> str:
+    """``text`` with its :func:`option_ref` references written out: by ``option_of(field)`` (a section
+    file's field), by default the running command's option (:data:`OPTION_OF`), else the field's name."""
+    option_of = option_of or OPTION_OF
+    return _OPTION_REF.sub(lambda m: (option_of(m[1]) if option_of is not None else None) or m[1], str(text))
 
 
 class TrackplanError(Exception):
@@ -52,12 +76,15 @@ class TrackplanError(Exception):
             where = where[:MAX_WHERE_CHARS // 2] + "..." + where[-MAX_WHERE_CHARS // 4:]
         self.where = where
         self.field = field
+        self.template = message  # with its option references (errors.render)
+        message = render(message)
         self.bare_message = message
         super().__init__(f"{where}: {message}" if where else message)
 
-    def relocated(self, where: str) -> "TrackplanError":
-        """The same problem (same class) placed at ``where`` (an option, or file and section)."""
-        return type(self)(self.bare_message, where)
+    def relocated(self, where: str, option_of=None) -> "TrackplanError":
+        """The same problem (same class) placed at ``where`` (an option, or file and section), its
+        option references written by ``option_of`` (:func:`render`)."""
+        return type(self)(render(self.template, option_of), where)
 
 
 class InputError(TrackplanError, ValueError):

@@ -73,15 +73,18 @@ class Notice(str):
     """
 
     def __new__(cls, message: str, code: str, where: str | None = None):
+        from trackplan.errors import render
+
         if code not in CODES:
             raise ValueError(f"unknown warning code {code!r}")
-        obj = super().__new__(cls, message)
+        obj = super().__new__(cls, render(message))
         obj.code = code
         obj.where = where
+        obj.template = message  # with its option references (trackplan.errors.render)
         return obj
 
     def __reduce__(self):  # pickles across worker processes with its code
-        return (Notice, (str(self), self.code, self.where))
+        return (Notice, (self.template, self.code, self.where))
 
     def as_json(self) -> dict:
         return {"code": self.code, "message": str(self), "where": self.where}

@@ -119,7 +119,7 @@ import numpy as np
 
 from trackplan.check import DEFAULT_WATCH_FRACTION  # noqa: F401  (importable from here)
 from trackplan import notices
-from trackplan.errors import InputError, TrackplanError
+from trackplan.errors import InputError, TrackplanError, option_ref
 from trackplan.seasons import month_list, station_months, winter_warnings
 
 # The per-day core and the tables live apart; every name stays importable from here.
@@ -567,9 +567,9 @@ class Screener:
             if ev.date > view.record_last:
                 extra = (f" (the record is a typical year labelled {view.record_first.year}: dated events cannot "
                          "be placed in it; screen a copy of the section without events, and use "
-                         "--neutral-override for a changed neutral temperature)") if view.typical_year else (
+                         f"{option_ref('neutral_override')} for a changed neutral temperature)") if view.typical_year else (
                          "; screening replays events on their dates inside the record: drop the event, use a "
-                         "record that covers it, or --neutral-override for its neutral temperature")
+                         f"record that covers it, or {option_ref('neutral_override')} for its neutral temperature")
                 raise InputError(f"{ev.kind} event on {ev.date.isoformat()} is after the end of the climate record "
                                  f"({view.record_last.isoformat()}){extra}", f"{where} events")
         day = view.day

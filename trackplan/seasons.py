@@ -13,7 +13,7 @@ planned around them (common practice).
 
 from __future__ import annotations
 
-from trackplan.errors import InputError
+from trackplan.errors import InputError, option_ref
 
 #: Month ranges (inclusive, may wrap the year end) of each season by hemisphere.
 SEASON_MONTHS = {
@@ -43,7 +43,7 @@ def season_months(season: str, latitude_deg: float | None, where: str | None = N
         raise InputError(f"unknown season {season!r}; accepted: {', '.join(SEASON_MONTHS)}", where, field="season")
     if latitude_deg is None:
         raise InputError("the hemisphere is not known (no latitude in the section or its climate record); "
-                         "add latitude to the section, or give --months", where)
+                         f"add latitude to the section, or give {option_ref('months')}", where)
     return SEASON_MONTHS[key][hemisphere(latitude_deg)]
 
 
@@ -77,4 +77,4 @@ def winter_warnings(months: tuple[int, int] | None, latitude_deg: float | None, 
 
     return (Notice(f"months {months[0]}-{months[1]} are mostly winter at {station} (latitude {latitude_deg:.1f}, "
                    f"{hemisphere(latitude_deg)}ern hemisphere): few heat days are to be expected; for its hot "
-                   "season use --season summer", "winter_months", "months"),)
+                   f"season use {option_ref('season')} summer", "winter_months", "months"),)

@@ -195,12 +195,13 @@ def _option_for(field: str | None) -> str | None:
 
 
 def _locate(exc: TrackplanError) -> TrackplanError:
-    """An error raised by a computation module names a field: put the command's option there."""
+    """An error raised by a computation module names a field: put the command's option there, and
+    write its references to values the user gives as the command's options."""
+    where = exc.where
     if exc.field is not None and exc.where == exc.field:
-        option = _option_for(exc.field)
-        if option is not None:
-            return exc.relocated(option)
-    return exc
+        where = _option_for(exc.field) or exc.where
+    located = exc.relocated(where, _option_for)
+    return exc if str(located) == str(exc) else located
 
 
 def place_fields(obj):
@@ -268,7 +269,10 @@ def run_guarded(fn, *args, **kw):
 
     from trackplan import reports
 
+    from trackplan import errors
+
     previous = _catch_sigterm()
+    errors.OPTION_OF = _option_for  # messages and warnings made during the command name its options
     try:
         out = kw.get("out")
         if out is not None:  # before any work, naming the folder
@@ -296,6 +300,7 @@ def run_guarded(fn, *args, **kw):
             raise
         internal_error(exc)
     finally:
+        errors.OPTION_OF = None
         _restore_sigterm(previous)
 
 
