@@ -57,7 +57,7 @@ from importlib import resources
 import numpy as np
 
 from trackplan import notices, ranges, thermal, units
-from trackplan.errors import InputError
+from trackplan.errors import InputError, option_ref
 from trackplan.notices import Notice
 
 # The physics of the plan lives apart; every name stays importable from here.
@@ -549,8 +549,8 @@ def plan_destressing(
     if mode == "repair":
         if (removed_length_m is None) == (opening_m is None):
             raise InputError(
-                "repair mode needs either the removed length (--removed, measured with the rail still clipped) "
-                "or the opening between the freed rail ends (--opening), not both",
+                f"repair mode needs either the removed length ({option_ref('removed')}, measured with the rail still "
+                f"clipped) or the opening between the freed rail ends ({option_ref('opening')}), not both",
                 field="removed/opening",
             )
         if removed_length_m is not None:
@@ -608,7 +608,8 @@ def plan_destressing(
 
     achieved = expected_at = None
     if (observed_movement_m is None) != (at_mark_m is None):
-        raise InputError("give both --observed-movement and --at-mark (the mark's distance from its fixed end)",
+        raise InputError(f"give both {option_ref('observed_movement')} and {option_ref('at_mark')} (the mark's "
+                         "distance from its fixed end)",
                          field="observed_movement/at_mark")
     if at_mark_m is not None:
         if not 0 < at_mark_m <= lp * (1 + 1e-9):

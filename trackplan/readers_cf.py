@@ -38,7 +38,7 @@ from pathlib import Path
 
 import numpy as np
 
-from trackplan.errors import InputError
+from trackplan.errors import InputError, option_ref
 
 _MAGIC = (b"CDF\x01", b"CDF\x02", b"CDF\x05", b"\x89HDF\r\n\x1a\n")
 _UNITS = {"k": "K", "kelvin": "K", "kelvins": "K", "degk": "K", "deg_k": "K",
@@ -91,8 +91,9 @@ def _nearest(ds, var, lat, lon, where: str):
     if lat is None or lon is None:
         if int(np.prod([da.sizes[d] for d in space])) == 1:
             return da.squeeze(drop=True), (float(la.values.ravel()[0]), float(lo.values.ravel()[0]))
-        raise InputError("a gridded file is read at the cell nearest the site; give --lat and --lon (or the "
-                         "section's latitude and longitude)", where)
+        raise InputError("a gridded file is read at the cell nearest the site; give "
+                         f"{option_ref('latitude')} and {option_ref('longitude')} (or the section's latitude and "
+                         "longitude)", where)
     LA, LO = np.asarray(la.values, float), np.asarray(lo.values, float)
     if LA.ndim == 1 and LO.ndim == 1:
         LA, LO = np.meshgrid(LA, LO, indexing="ij")

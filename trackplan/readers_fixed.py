@@ -63,7 +63,7 @@ import numpy as np
 import pandas as pd
 
 from trackplan import weather as W
-from trackplan.errors import InputError
+from trackplan.errors import InputError, option_ref
 
 _DLY_RE = re.compile(r"^[A-Z]{2}[A-Z0-9]{9}\d{4}(0[1-9]|1[0-2])[A-Z0-9]{4}.{8}")
 _ISD_RE = re.compile(r"^\d{4} (0[1-9]|1[0-2]) [0-3]\d [0-2]\d[ \-\d]{6}[ \-\d]{6}")
@@ -229,7 +229,7 @@ def read_isd_lite(text: str, ctx) -> tuple[pd.DataFrame, dict]:
     idx.name = "time"
     meta["tz"], meta["utc_offset_h"] = name, off
     if how.startswith("the nominal") or how.startswith("UTC ("):
-        ctx.warn(f"ISD-Lite times are UTC; shown in {name}, {how} (give --tz to choose)", code="time_zone")
+        ctx.warn(f"ISD-Lite times are UTC; shown in {name}, {how} (give {option_ref('tz')} to choose)", code="time_zone")
     data = pd.DataFrame(index=idx)
     data["air_temperature_C"] = np.where(temp == -9999, np.nan, temp / 10.0)
     if (wind != -9999).any():
