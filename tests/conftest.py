@@ -80,10 +80,27 @@ def keys_outside_glossary(obj, path: str = "", names: set | None = None) -> set:
     return out
 
 
+def _warning_lists(obj):
+    if isinstance(obj, dict):
+        for k, v in obj.items():
+            if k in ("warnings", "blocking"):
+                yield v
+            yield from _warning_lists(v)
+    elif isinstance(obj, list):
+        for v in obj:
+            yield from _warning_lists(v)
+
+
 def assert_glossary_keys(obj) -> None:
-    """Fail naming every key of ``obj`` that docs/glossary.md does not name."""
+    """Fail naming every key of ``obj`` that docs/glossary.md does not name; and every warning must be an
+    object with a stable code (trackplan.notices.to_json), at any depth."""
+    from trackplan import notices
+
     missing = keys_outside_glossary(obj)
     assert not missing, f"JSON keys not in docs/glossary.md: {sorted(missing)}"
+    for ws in _warning_lists(obj):
+        assert all(isinstance(w, dict) and set(w) == {"code", "message", "where"} and w["code"] in notices.CODES
+                   for w in ws), ws
 
 
 def assert_csv_is_flat_json(csv_path, objs: list[dict], names: dict | None = None, leave_out=None,

@@ -28,6 +28,7 @@ from trackplan.extremes_fit import (
     annual_extremes,
     fit_extremes,
 )
+from trackplan import notices
 from trackplan.notices import Notice
 
 
@@ -145,7 +146,7 @@ class DesignExtremes:
             "max_air_temperature_C": float(self.max_air_temperature_C),
             "min_air_temperature_C": float(self.min_air_temperature_C),
             "annual": annual,
-            "warnings": list(self.warnings),
+            "warnings": notices.to_json(self.warnings),
         }
 
 
