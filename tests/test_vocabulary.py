@@ -44,3 +44,22 @@ def test_destress_warnings_name_their_option_and_codes(run_cli):
     res, d = run_cli(*DESTRESS, "--tensor-capacity", "200 kN", "--json", json_out=True)
     assert d["warnings"] and all(set(w) == {"code", "message", "where"} and w["code"] in notices.CODES
                                  for w in d["warnings"])
+
+
+def test_flattening_rules():
+    """trackplan.tables: the one way from a command's JSON to CSV rows."""
+    from trackplan import tables
+
+    obj = {"id": "A", "months": [5, 6, 7], "reasons": ["hot", "old"], "laying_range_C": [25.0, 31.0],
+           "feasible_window_C": None, "probability_per_season": {"value": 0.1, "standard_error": 0.01},
+           "days_per_year": {"watch": 2.0, "cold": 0.5}, "drivers": {"neutral": {"probability_drop": 0.05}},
+           "worst_cold_day": None, "annual": [{"year": 2001}], "warnings": [{"code": "gaps"}], "caution": "x"}
+    names = {"days_per_year": "{}_days_per_year", "drivers": "drop_{}", "worst_cold_day": "worst_cold_day_{}"}
+    assert tables.flat_row(obj, names) == {
+        "section": "A", "months": "5 6 7", "reasons": "hot | old", "laying_range_low_C": 25.0,
+        "laying_range_high_C": 31.0, "feasible_window_low_C": None, "feasible_window_high_C": None,
+        "probability_per_season": 0.1, "standard_error": 0.01, "watch_days_per_year": 2.0,
+        "cold_days_per_year": 0.5, "drop_neutral": 0.05}
+    assert tables.table_rows([obj], "annual") == [{"section": "A", "year": 2001}]
+    with pytest.raises(ValueError, match="standard_error"):  # a clash is the builder's to name
+        tables.flat_row({"a": {"standard_error": 1}, "b": {"standard_error": 2}})

@@ -21,7 +21,8 @@ Flattening rules (one row per JSON object):
   becomes two columns ``<name>_low_<unit>`` and ``<name>_high_<unit>``; another list of
   numbers one cell of numbers separated by spaces (``months``: ``5 6 7 8 9``); a list of
   words one cell joined by `` | ``;
-* a list of objects is a table of its own (:func:`table_rows`), never a cell;
+* a list of objects is a table of its own (:func:`table_rows`), never a cell; a missing
+  (null) object whose entries a template names gives no cells in that row (they stay empty);
   keys in ``leave_out`` (warnings, inputs, files, the caution) stay in the JSON only.
 """
 
@@ -96,6 +97,8 @@ def flat_row(obj: dict, names: dict | None = None, leave_out: Iterable[str] = LE
                 _cell_of_list(col, list(v), put)
             elif v is None and _INTERVAL.match(col):  # no interval: both ends empty, the same columns
                 _cell_of_list(col, [None, None], put)
+            elif v is None and k in names:  # no such object (no worst cold day): its columns stay empty
+                continue
             else:
                 put(col, v)
 
@@ -120,8 +123,15 @@ def table_rows(objs: Iterable[dict], key: str, names: dict | None = None,
     return out
 
 
+def columns_of(rows: list[dict]) -> list[str]:
+    """The columns of rows that may lack some (a section without a worst cold day): every key, in the
+    order it first appears."""
+    return list(dict.fromkeys(k for r in rows for k in r))
+
+
 def frame(rows: list[dict], columns: Iterable[str] = ()):
-    """A pandas DataFrame of rows (``columns`` when there are none, so an empty file has its header)."""
+    """A pandas DataFrame of rows, with :func:`columns_of` them (``columns`` when there are none, so an
+    empty file has its header); a cell a row lacks is empty."""
     import pandas as pd
 
-    return pd.DataFrame(rows) if rows else pd.DataFrame(columns=list(columns))
+    return pd.DataFrame(rows, columns=columns_of(rows)) if rows else pd.DataFrame(columns=list(columns))

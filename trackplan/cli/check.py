@@ -86,15 +86,13 @@ def envelope_name(section_id: str) -> str:
 def write_check_outputs(out: Path, results, sections_file: Path, system: str, settings=None) -> list[Path]:
     """CSV of all figures, a PNG force envelope per section, one HTML summary."""
     settings = check_settings(None, "gumbel", system) if settings is None else settings
-    import pandas as pd
-
-    from trackplan import reports
+    from trackplan import reports, tables
 
     reports.matplotlib_backend()
     inputs = [sections_file] + [a.section.climate_path for a in results]
     out = reports.prepare_out_dir(out, inputs, planned=["check.csv", "check_summary.html"] +
                                   [envelope_name(a.section.id) for a in results])
-    written = [reports.write_csv(out / "check.csv", pd.DataFrame(reports.check_rows(results)), inputs,
+    written = [reports.write_csv(out / "check.csv", tables.frame(reports.check_rows(results)), inputs,
                                  settings=[("command", "trackplan check"), ("section file", str(sections_file)),
                                            *settings])]
     pngs = {}

@@ -267,9 +267,7 @@ def run_guarded(fn, *args, **kw):
 
     import click
 
-    from trackplan import reports
-
-    from trackplan import errors
+    from trackplan import errors, reports
 
     previous = _catch_sigterm()
     errors.OPTION_OF = _option_for  # messages and warnings made during the command name its options

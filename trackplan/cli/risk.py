@@ -61,14 +61,12 @@ def print_table(result, system: str) -> None:
 
 def write_outputs(out: Path, result, sections_file: Path) -> list[Path]:
     """risk_sections.csv and risk_network.png."""
-    import pandas as pd
-
-    from trackplan import reports, risk_report
+    from trackplan import reports, risk_report, tables
 
     reports.matplotlib_backend()
     inputs = [sections_file]
     out = reports.prepare_out_dir(out, inputs, planned=["risk_sections.csv", "risk_network.png"])
-    return [reports.write_csv(out / "risk_sections.csv", pd.DataFrame(risk_report.rows(result)), inputs),
+    return [reports.write_csv(out / "risk_sections.csv", tables.frame(risk_report.rows(result)), inputs),
             reports.save_figure(out / "risk_network.png", risk_report.figure(result), inputs)]
 
 

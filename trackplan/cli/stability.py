@@ -181,13 +181,12 @@ def stability_cmd(
 
     files = []
     if out is not None:
-        from trackplan import reports
-        import pandas as pd
+        from trackplan import reports, tables
 
         inputs = [profiles_file] if profiles_file else []
         out_dir = reports.prepare_out_dir(out, inputs)
         files.append(_plot(result, out_dir, s, inputs, _case(profile.name, sleeper, ballast, shoulder, result.inputs, s)))
-        frame = pd.DataFrame(result.as_json()["curve"])  # the JSON's equilibrium curve, one row per point
+        frame = tables.frame(result.as_json()["curve"])  # the JSON's equilibrium curve, one row per point
         files.append(reports.write_csv(out_dir / "stability_curve.csv", frame, inputs, [
             ("command", "trackplan stability"),
             ("track", _case(profile.name, sleeper, ballast, shoulder, result.inputs, "si")),

@@ -74,9 +74,7 @@ def write_target_outputs(out: Path, results, sections_file: Path, system: str, r
     """target.csv (SI, settings in '# key: value' lines) and target_summary.html."""
     import datetime as dt
 
-    import pandas as pd
-
-    from trackplan import __version__, reports
+    from trackplan import __version__, reports, tables
     from trackplan.cli.network import network_name
     from trackplan.target_report import target_html, target_rows
 
@@ -86,7 +84,7 @@ def write_target_outputs(out: Path, results, sections_file: Path, system: str, r
                 ("distribution", distribution), ("priority of an empty window", priority),
                 ("register", None if register is None else str(register)), ("units", system)]
     settings = [(k, v) for k, v in settings if v is not None]
-    written = [reports.write_csv(out / "target.csv", pd.DataFrame(target_rows(results)), inputs,
+    written = [reports.write_csv(out / "target.csv", tables.frame(target_rows(results)), inputs,
                                  [("command", "trackplan target"), ("section file", str(sections_file)), *settings])]
     page = target_html(results, system, network_name(sections_file),
                        "Settings: " + ", ".join(f"{k} {v}" for k, v in settings) + ".",
