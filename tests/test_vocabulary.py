@@ -62,4 +62,4 @@ def test_flattening_rules():
         "cold_days_per_year": 0.5, "drop_neutral": 0.05}
     assert tables.table_rows([obj], "annual") == [{"section": "A", "year": 2001}]
     with pytest.raises(ValueError, match="standard_error"):  # a clash is the builder's to name
-        tables.flat_row({"a": {"standard_error": 1}, "b": {"standard_error": 2}})
+        tables.flat_row({"a": {"value": 1, "standard_error": 1}, "b": {"value": 2, "standard_error": 2}})

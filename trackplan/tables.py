@@ -77,12 +77,13 @@ def flat_row(obj: dict, names: dict | None = None, leave_out: Iterable[str] = LE
             raise ValueError(f"two entries of the JSON give the CSV column {col!r}")
         row[col] = v
 
-    def walk(o: dict, own: str | None, template: str | None) -> None:
+    def walk(o: dict, own: str | None, template: str | None, named: bool = False) -> None:
+        # named: the builder's template names these entries (keyed by a category), never collapsed
         only = len(o) == 1
         for k, v in o.items():
             if k in skip:
                 continue
-            if own is not None and (k == "value" or only):
+            if own is not None and not named and (k == "value" or only):
                 col = own
             elif template is not None:
                 col = template.format(k)
@@ -91,8 +92,10 @@ def flat_row(obj: dict, names: dict | None = None, leave_out: Iterable[str] = LE
             else:
                 col = k
             if isinstance(v, dict):
-                sub = col + "_{}" if template is not None else names.get(k)
-                walk(v, col, sub)
+                if template is not None:
+                    walk(v, col, col + "_{}")
+                else:
+                    walk(v, col, names.get(k), named=k in names)
             elif isinstance(v, (list, tuple)):
                 _cell_of_list(col, list(v), put)
             elif v is None and _INTERVAL.match(col):  # no interval: both ends empty, the same columns
