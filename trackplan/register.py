@@ -48,6 +48,15 @@ WAL journal, ``BEGIN IMMEDIATE`` write transactions and a busy timeout, so
 that concurrent writers wait for each other and lose nothing, and a writer
 killed mid-transaction leaves the database as before.
 
+Processes
+---------
+Every transaction opens its own connection and closes it at the end, so a
+register holds no connection between calls and a process may fork and let its
+children write. A connection open while a process forks makes SQLite's locks
+in the child unreliable (committed entries can be lost): a forked process
+refuses to connect to a register it inherited open
+(:mod:`trackplan.register_fork`).
+
 This module imports SQLAlchemy at top level: import it only inside the code
 paths that use the register.
 
@@ -73,6 +82,7 @@ import sqlalchemy as sa
 
 from trackplan import ranges
 from trackplan.errors import InputError
+from trackplan.register_fork import ForkedConnectionError, refuse_inherited  # noqa: F401 (re-exported)
 
 #: Schema version this code writes; older registers are migrated, newer refused.
 SCHEMA_VERSION = 2
@@ -328,6 +338,12 @@ def resolve_path(db: str | Path | None) -> Path:
 def _engine(path: Path):
     engine = sa.create_engine(sa.engine.URL.create("sqlite", database=str(path)),
                               connect_args={"timeout": BUSY_TIMEOUT_S}, poolclass=sa.pool.NullPool)
+
+    @sa.event.listens_for(engine, "do_connect")
+    def _before_connect(_dialect, _record, _cargs, _cparams):
+        # every transaction connects anew (NullPool): no connection is ever open across a fork
+        # by this module; a file inherited open from the parent (another connection) is refused
+        refuse_inherited(path)
 
     @sa.event.listens_for(engine, "connect")
     def _on_connect(dbapi_conn, _record):
