@@ -3,6 +3,7 @@ concurrent writers, a writer killed mid-transaction; the achieved neutral from m
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
 import multiprocessing as mp
 import os
@@ -41,8 +42,21 @@ def reg(imported, tmp_path):
     return R.open_register(shutil.copy(imported, tmp_path / "reg.sqlite"))
 
 
+@contextlib.contextmanager
+def _sqlite(path):
+    """A plain sqlite3 connection, committed and *closed* at the end (``with sqlite3.connect()`` alone
+    does not close: the connection lives on, open, until the garbage collector frees it, and a process
+    forked before that hands it to its children)."""
+    c = sqlite3.connect(path)
+    try:
+        with c:
+            yield c
+    finally:
+        c.close()
+
+
 def _count(path) -> int:
-    with sqlite3.connect(path) as c:
+    with _sqlite(path) as c:
         return c.execute("SELECT count(*) FROM entries").fetchone()[0]
 
 
@@ -101,7 +115,7 @@ def test_bad_entries_are_refused_and_nothing_is_written(reg, entry, words):
 
 
 def test_entries_are_append_only_in_the_database(reg):
-    with sqlite3.connect(reg.path) as c:
+    with _sqlite(reg.path) as c:
         for sql in ("UPDATE entries SET neutral_temperature_C = 20", "DELETE FROM entries"):
             with pytest.raises(sqlite3.DatabaseError, match="append-only"):
                 c.execute(sql)
@@ -137,7 +151,7 @@ def test_due_reasons(reg):
 def test_newer_schema_is_refused_without_writing(reg):
     path = reg.path
     reg.engine.dispose()
-    with sqlite3.connect(path) as c:
+    with _sqlite(path) as c:
         c.execute("UPDATE meta SET value = '99' WHERE key = 'schema_version'")
     before = path.read_bytes()
     with pytest.raises(InputError, match="schema version 99"):
@@ -161,7 +175,7 @@ def test_migration_from_version_1(tmp_path):
     reg = R.open_register(path)
     assert reg.verify() == []  # version 2 now, with the append-only guard
     assert reg.history("S1").latest_neutral.neutral_temperature_C == 25.0
-    with sqlite3.connect(path) as c:
+    with _sqlite(path) as c:
         assert c.execute("SELECT value FROM meta").fetchone()[0] == str(R.SCHEMA_VERSION)
         assert c.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
 
@@ -201,6 +215,54 @@ def test_three_processes_logging_at_once_lose_nothing(reg):
     notes = [e.note for e in reg.history("KP-102").entries if e.kind == "note"]
     assert _count(reg.path) == n0 + 75 and len(set(notes)) == 75
     assert reg.verify() == []
+
+
+def _forked_logger(path, reg, conn):
+    """In a forked child: log one entry (through the parent's Register when given), report the outcome."""
+    try:
+        r = reg if reg is not None else R.open_register(path)
+        conn.send(("done", r.log(R.NewEntry("KP-102", "note", D(2024, 1, 1), "forked", note="from a child"))))
+    except R.ForkedConnectionError as exc:
+        conn.send(("refused", str(exc)))
+
+
+def _fork_and_log(ctx, path, reg=None):
+    a, b = ctx.Pipe()
+    p = ctx.Process(target=_forked_logger, args=(path, reg, b))
+    p.start()
+    return p, a
+
+
+def test_a_forked_process_refuses_a_register_its_parent_has_open(reg):
+    # A child inherits SQLite's record of the locks its parent holds, but not the locks (POSIX locks belong
+    # to a process): its writes can be lost although reported done (sqlite.org, "How To Corrupt An SQLite
+    # Database File", section 2.6). Every way the parent can hold the file open at the fork is refused.
+    n0 = _count(reg.path)
+    ctx = mp.get_context("fork")
+    held = sqlite3.connect(reg.path)  # a plain connection, open across the fork
+    try:
+        held.execute("SELECT count(*) FROM entries").fetchone()
+        p, a = _fork_and_log(ctx, reg.path)
+        assert a.poll(30)
+        state, message = a.recv()
+        p.join(30)
+    finally:
+        held.close()
+    assert state == "refused" and str(reg.path) in message and "forked" in message, (state, message)
+    with reg.transaction():  # the register's own connection, open across the fork; the child uses `reg`
+        p, a = _fork_and_log(ctx, reg.path, reg)
+        assert a.poll(30)
+        state, message = a.recv()
+        p.join(30)
+    assert state == "refused" and str(reg.path) in message, (state, message)
+    assert _count(reg.path) == n0
+    # nothing open at the fork: the child writes, through the parent's Register too (no connection is kept)
+    p, a = _fork_and_log(ctx, reg.path, reg)
+    assert a.poll(30)
+    state, entry_id = a.recv()
+    p.join(30)
+    assert state == "done" and p.exitcode == 0
+    assert _count(reg.path) == n0 + 1 and reg.entries()[-1].id == entry_id and reg.verify() == []
 
 
 def _killed_writer(path, conn):
