@@ -60,6 +60,21 @@ def _count(path) -> int:
         return c.execute("SELECT count(*) FROM entries").fetchone()[0]
 
 
+def _held_open_here(path) -> bool:
+    """Whether this process has the register (or its WAL or shared-memory file) open."""
+    files = set()
+    for p in (Path(path), Path(f"{path}-wal"), Path(f"{path}-shm")):
+        with contextlib.suppress(OSError):
+            st = os.stat(p)
+            files.add((st.st_dev, st.st_ino))
+    held = set()
+    for fd in os.listdir("/dev/fd"):
+        with contextlib.suppress(OSError, ValueError):
+            st = os.fstat(int(fd))
+            held.add((st.st_dev, st.st_ino))
+    return bool(files & held)
+
+
 def test_import_is_idempotent_and_keeps_the_file_facts(reg):
     n = _count(reg.path)
     from trackplan.sections import load_sections
@@ -204,6 +219,7 @@ def _writer(path, name, n, barrier):
 
 def test_three_processes_logging_at_once_lose_nothing(reg):
     n0 = _count(reg.path)
+    assert not _held_open_here(reg.path)  # no connection may cross the fork (see the next test)
     ctx = mp.get_context("fork")
     barrier = ctx.Barrier(3)
     procs = [ctx.Process(target=_writer, args=(reg.path, f"writer {k}", 25, barrier)) for k in range(3)]
@@ -257,6 +273,7 @@ def test_a_forked_process_refuses_a_register_its_parent_has_open(reg):
     assert state == "refused" and str(reg.path) in message, (state, message)
     assert _count(reg.path) == n0
     # nothing open at the fork: the child writes, through the parent's Register too (no connection is kept)
+    assert not _held_open_here(reg.path)
     p, a = _fork_and_log(ctx, reg.path, reg)
     assert a.poll(30)
     state, entry_id = a.recv()
