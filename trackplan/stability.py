@@ -155,7 +155,7 @@ from trackplan.track import (  # noqa: F401  (re-exported: the analysis's public
     get_preset, presets, shoulder_types, sleeper_types, spacing_factor, track_parameters,
 )
 from trackplan.stability_fe import (  # noqa: F401
-    _Model, _Path, _newton, _refine, _trace, bifurcation_rise, euler_critical_force, gauss_point_resistances,
+    BRANCH_START_MISALIGNMENTS_M, _Model, _Path, _newton, _refine, _trace, bifurcation_rise, trough_by_continuation, euler_critical_force, gauss_point_resistances,
     hetenyi_critical_force, lateral_resistance, longitudinal_resistance, pinned_column_critical_force,
 )
 
@@ -164,7 +164,8 @@ from trackplan.stability_fe import (  # noqa: F401
 # ----------------------------------------------------------------------------------------------
 
 
-def physical_base(upper_K: float, lower_K: float | None, rise_at_limit_K: float | None):
+def physical_base(upper_K: float, lower_K: float | None, rise_at_limit_K: float | None,
+                  shallow_trough_K: float | None = None):
     """The critical rise an allowable is built on: ``(value_K, words)``.
 
     For snap-through the lower critical rise (below it no buckled equilibrium exists, so no
@@ -174,9 +175,14 @@ def physical_base(upper_K: float, lower_K: float | None, rise_at_limit_K: float 
     :data:`DISPLACEMENT_LIMIT_M` (a displacement-based limit as Kish and Samavedam use for
     progressive buckling; 25 mm is this project's choice, of the order of the alignment
     tolerances of maintained track, from memory); whichever is lower, never above the upper
-    critical rise.
+    critical rise. A dip after the peak shallower than :data:`SNAP_THRESHOLD_K` does not make the
+    response snap-through, but its bottom (``shallow_trough_K``) is still a rise at which a
+    buckled equilibrium exists: it is a candidate too, so that the base does not jump where the
+    dip crosses the threshold.
     """
     cands = []
+    if shallow_trough_K is not None:
+        cands.append((shallow_trough_K, f"bottom of a shallow dip after the peak {shallow_trough_K:.1f} K"))
     if lower_K is not None:
         cands.append((lower_K, f"lower critical rise {lower_K:.1f} K"))
     if rise_at_limit_K is not None:
@@ -186,7 +192,8 @@ def physical_base(upper_K: float, lower_K: float | None, rise_at_limit_K: float 
     return min(cands)
 
 
-def allowable_lower_critical(upper_K: float, lower_K: float | None, rise_at_limit_K: float | None):
+def allowable_lower_critical(upper_K: float, lower_K: float | None, rise_at_limit_K: float | None,
+                             shallow_trough_K: float | None = None):
     """Allowable rise: :func:`physical_base` divided by :data:`MARGIN_FACTOR` (1.2).
 
     The margin factor covers the scatter of the resistances and the misalignment; it is this
@@ -194,14 +201,15 @@ def allowable_lower_critical(upper_K: float, lower_K: float | None, rise_at_limi
 
     Returns ``(allowable_K, words)``.
     """
-    base, what = physical_base(upper_K, lower_K, rise_at_limit_K)
+    base, what = physical_base(upper_K, lower_K, rise_at_limit_K, shallow_trough_K)
     words = (f"{what} divided by a margin factor of {MARGIN_FACTOR:g} "
              "(lower critical rise for snap-through, rise at a 25 mm lateral displacement for progressive "
              "response, whichever is lower; after Kerr 1978 and Kish and Samavedam 2013)")
     return base / MARGIN_FACTOR, words
 
 
-def allowable_upper_quarter(upper_K: float, lower_K: float | None, rise_at_limit_K: float | None):
+def allowable_upper_quarter(upper_K: float, lower_K: float | None, rise_at_limit_K: float | None,
+                            shallow_trough_K: float | None = None):
     """Allowable rise ``T_min + 0.25 (T_max - T_min)``, never above the upper critical rise.
 
     A less conservative criterion, written from memory of the buckling-energy safety concept of
@@ -213,7 +221,7 @@ def allowable_upper_quarter(upper_K: float, lower_K: float | None, rise_at_limit
     Returns ``(allowable_K, words)``.
     """
     if lower_K is None:
-        return allowable_lower_critical(upper_K, lower_K, rise_at_limit_K)
+        return allowable_lower_critical(upper_K, lower_K, rise_at_limit_K, shallow_trough_K)
     allow = min(lower_K + 0.25 * (upper_K - lower_K), upper_K)
     if rise_at_limit_K is not None:
         allow = min(allow, rise_at_limit_K)
@@ -239,11 +247,11 @@ def practice_reference_base_K() -> float:
     prof = rails.get_profile(PRACTICE_REFERENCE["rail"])
     inp = build_track(prof, thermal.default_steel(prof.is_north_american), sleeper=PRACTICE_REFERENCE["sleeper"],
                       ballast=PRACTICE_REFERENCE["ballast"], shoulder=PRACTICE_REFERENCE["shoulder"])
-    res = _cached(inp, "lower-critical")
-    return physical_base(res.upper_critical_rise_K, res.lower_critical_rise_K, res.rise_at_displacement_limit_K)[0]
+    return _cached(inp, "lower-critical").buckling_rise_K
 
 
-def allowable_practice_calibrated(upper_K: float, lower_K: float | None, rise_at_limit_K: float | None):
+def allowable_practice_calibrated(upper_K: float, lower_K: float | None, rise_at_limit_K: float | None,
+                                  shallow_trough_K: float | None = None):
     """Allowable rise: the physical base of the loaded track scaled so that the reference track
     gets the rise that practice takes as critical.
 
@@ -264,7 +272,7 @@ def allowable_practice_calibrated(upper_K: float, lower_K: float | None, rise_at
 
     Returns ``(allowable_K, words)``.
     """
-    base, what = physical_base(upper_K, lower_K, rise_at_limit_K)
+    base, what = physical_base(upper_K, lower_K, rise_at_limit_K, shallow_trough_K)
     ref = practice_reference_base_K()
     factor = PRACTICE_RISE_K / ref
     words = (f"{what} of the track times {factor:.3f}: the factor that brings the reference track "
@@ -274,7 +282,7 @@ def allowable_practice_calibrated(upper_K: float, lower_K: float | None, rise_at
     return base * factor, words
 
 
-#: Registry of allowable-rise criteria: name -> function(upper_K, lower_K, rise_at_25mm_K).
+#: Registry of allowable-rise criteria: name -> function(upper_K, lower_K, rise_at_25mm_K, shallow_trough_K=None).
 CRITERIA: dict[str, Callable] = {
     "practice-calibrated": allowable_practice_calibrated,
     "lower-critical": allowable_lower_critical,
@@ -324,6 +332,12 @@ class StabilityResult:
         What the reader must know about this result (trigger misalignment, stopping reason...).
     criterion_name : str
         Key of :data:`CRITERIA` used.
+    shallow_trough_rise_K : float or None
+        Bottom of a dip after the peak shallower than :data:`SNAP_THRESHOLD_K` (progressive
+        response) [K]; a candidate of :attr:`buckling_rise_K`.
+    path_stop : str
+        Why the path following stopped (:data:`STOP_BIFURCATION` when the traced path lost
+        stability before its peak).
     """
 
     upper_critical_rise_K: float
@@ -342,6 +356,14 @@ class StabilityResult:
     criterion_name: str = DEFAULT_CRITERION
     unloaded_upper_critical_rise_K: float | None = None
     unloaded_lower_critical_rise_K: float | None = None
+    shallow_trough_rise_K: float | None = None
+    path_stop: str = ""
+
+    @property
+    def buckling_rise_K(self) -> float:
+        """The physical base of the allowable rise (:func:`physical_base`) [K]."""
+        return physical_base(self.upper_critical_rise_K, self.lower_critical_rise_K,
+                             self.rise_at_displacement_limit_K, self.shallow_trough_rise_K)[0]
 
     @property
     def loading_name(self) -> str:
@@ -424,6 +446,42 @@ def _critical_point(M: _Model, path: _Path, i: int, sign: int):
 RETRACE_MISALIGNMENT_M = 0.05
 
 
+#: :attr:`StabilityResult.path_stop` of a path that lost stability before its peak.
+STOP_BIFURCATION = "bifurcation before the peak"
+
+
+def _bifurcation_words(rise_K: float) -> str:
+    return (f"the equilibrium path loses stability at a rise of {rise_K:.1f} K before its peak "
+            "(a bifurcation to another buckled shape, which this analysis does not follow); the upper critical "
+            "rise is at most that value, and the buckled branch could not be followed from a larger misalignment "
+            "either, so no lower critical rise can be given")
+
+
+def _with_followed_branch(res: StabilityResult, criterion: str, element_length_m: float, half_length_m: float,
+                          why: str) -> StabilityResult | None:
+    """``res`` with the lower critical rise of its own buckled branch, reached through a larger
+    misalignment and followed back (:func:`trackplan.stability_fe.trough_by_continuation`); None
+    when the branch cannot be followed or its trough is not below the upper critical rise."""
+    import dataclasses
+
+    inp = res.inputs
+    if inp.misalignment_m >= BRANCH_START_MISALIGNMENTS_M[-1]:
+        return None
+    d0 = TRIGGER_MISALIGNMENT_M if inp.misalignment_m == 0.0 else inp.misalignment_m
+    branch = trough_by_continuation(inp, d0, element_length_m, half_length_m)
+    if branch is None or branch[0] >= res.upper_critical_rise_K:
+        return None
+    lower, d_lo, d_start = branch
+    allow, words = CRITERIA[criterion](res.upper_critical_rise_K, lower, res.rise_at_displacement_limit_K)
+    note = (f"{why}; the buckled branch was reached through a {d_start * 1e3:g} mm misalignment and followed back "
+            f"to the given one (lower critical rise {lower:.1f} K)")
+    return dataclasses.replace(
+        res, lower_critical_rise_K=lower, lower_critical_displacement_m=d_lo, allowable_rise_K=float(allow),
+        response="snap-through" if res.upper_critical_rise_K - lower >= SNAP_THRESHOLD_K else "progressive",
+        criterion=words, shallow_trough_rise_K=None,
+        notes=tuple(n for n in res.notes if n != _TRIGGER_NOTE) + (note,))
+
+
 def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERION,
                             element_length_m: float = ELEMENT_LENGTH_M, half_length_m: float = HALF_LENGTH_M,
                             progress: Callable[[float], None] | None = None) -> StabilityResult:
@@ -431,33 +489,46 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
 
     Strong track with a small misalignment can show no peak below :data:`MAX_RISE_K`,
     although its buckled equilibrium branch (and so its lower critical rise) exists far
-    lower. Then the buckled branch is traced again with :data:`RETRACE_MISALIGNMENT_M`
-    (the lower critical rise falls only slowly with the misalignment: 68.9 K at 20 mm and
-    64.4 K at 50 mm for consolidated concrete-sleeper 60E1 track), and its lower critical
-    rise is used: the allowable rise is never read off a curve that merely stopped rising
-    at the limit of the analysis. The result keeps the curve of the given misalignment
-    and says so in its notes. A linear (Winkler) foundation has no softening and no lower
-    critical rise; it is left as traced. When the path of a misalignment smaller than
-    :data:`RETRACE_MISALIGNMENT_M` cannot be followed at all, the result of that larger
-    misalignment is returned instead (lower critical rises: on the safe side), said in its notes.
+    lower. Then the buckled branch is reached through a larger misalignment and followed back
+    to the given one (:func:`trackplan.stability_fe.trough_by_continuation`): the lower critical
+    rise is that of the given misalignment, continuous where the peak of the path crosses the
+    analysis limit (it falls slowly with the misalignment: 67.7 K at 10 mm, 66.4 K at 20 mm and
+    61.7 K at 50 mm for consolidated concrete-sleeper 60E1 track under the default train). The
+    allowable rise is never read off a curve that merely stopped rising at the limit of the
+    analysis. The result keeps the curve of the given misalignment and says so in its notes.
+    Only when the branch cannot be followed back is the lower critical rise of a
+    :data:`RETRACE_MISALIGNMENT_M` misalignment used (lower: on the safe side). A linear
+    (Winkler) foundation has no softening and no lower critical rise; it is left as traced.
+    When the path of a misalignment smaller than :data:`RETRACE_MISALIGNMENT_M` cannot be
+    followed at all, the result of that larger misalignment is returned instead (lower critical
+    rises: on the safe side), said in its notes.
 
     Parameters are those of :func:`_solve_traced`.
     """
+    import dataclasses
+
+    kw = dict(criterion=criterion, element_length_m=element_length_m, half_length_m=half_length_m)
     try:
-        res = _solve_traced(inp, criterion=criterion, element_length_m=element_length_m,
-                            half_length_m=half_length_m, progress=progress)
+        res = _solve_traced(inp, progress=progress, **kw)
+        if res.path_stop == STOP_BIFURCATION:
+            followed = _with_followed_branch(res, criterion, element_length_m, half_length_m,
+                                             f"the path loses stability at a rise of {res.upper_critical_rise_K:.1f} K "
+                                             "before its peak (a bifurcation the analysis does not follow; the upper "
+                                             "critical rise is given as that rise)")
+            if followed is None:
+                raise StabilityError(_bifurcation_words(res.upper_critical_rise_K), "stability analysis")
+            return followed
     except StabilityError as exc:
         if inp.lateral_stiffness_N_per_m2 is not None or inp.misalignment_m >= RETRACE_MISALIGNMENT_M:
             raise
         # the path of the given misalignment could not be followed: a larger misalignment lowers
         # both critical rises, so its result (if it can be traced) is on the safe side
-        import dataclasses
-
         wide = dataclasses.replace(inp, misalignment_m=RETRACE_MISALIGNMENT_M)
         try:
-            alt = _solve_traced(wide, criterion=criterion, element_length_m=element_length_m,
-                                half_length_m=half_length_m)
+            alt = _solve_traced(wide, **kw)
         except StabilityError:
+            raise exc from None
+        if alt.path_stop == STOP_BIFURCATION:
             raise exc from None
         note = (f"the equilibrium path of the given {inp.misalignment_m * 1e3:g} mm misalignment could not be followed "
                 f"({exc.bare_message}); the result is that of a {RETRACE_MISALIGNMENT_M * 1e3:g} mm misalignment, "
@@ -465,10 +536,14 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
         return dataclasses.replace(alt, notes=alt.notes + (note,))
     reached_limit = float(np.max(res.curve_rise_K)) >= MAX_RISE_K - 1e-6
     if (res.lower_critical_rise_K is not None or not reached_limit or inp.lateral_stiffness_N_per_m2 is not None
-            or inp.misalignment_m >= RETRACE_MISALIGNMENT_M):
+            or inp.misalignment_m >= BRANCH_START_MISALIGNMENTS_M[-1]):
         return res
-    import dataclasses
-
+    followed = _with_followed_branch(res, criterion, element_length_m, half_length_m,
+                                     f"no peak up to the analysis limit of {MAX_RISE_K:g} K with the given misalignment")
+    if followed is not None:
+        return followed
+    if inp.misalignment_m >= RETRACE_MISALIGNMENT_M:
+        return res
     wide = dataclasses.replace(inp, misalignment_m=RETRACE_MISALIGNMENT_M)
     try:
         alt = _solve_traced(wide, criterion=criterion, element_length_m=element_length_m, half_length_m=half_length_m)
@@ -544,7 +619,7 @@ def _solve_traced(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERIO
         if T[i] >= T[i - 1] and T[i + 1] < T[i]:
             i_peak = i
             break
-    upper = lower = None
+    upper = lower = shallow = None
     d_up = d_lo = None
     response = "progressive"
     if i_peak is not None:
@@ -562,7 +637,9 @@ def _solve_traced(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERIO
         if upper - lower >= SNAP_THRESHOLD_K:
             response = "snap-through"
         else:
-            notes.append(f"the curve dips by only {upper - lower:.2f} K after its peak; treated as progressive")
+            notes.append(f"the curve dips by only {upper - lower:.2f} K after its peak; treated as progressive "
+                         "(the bottom of the dip still counts as a buckling rise)")
+            shallow = lower
             lower = None
             d_lo = None
     if path.stop == "path following stopped on a rising curve":
@@ -599,16 +676,20 @@ def _solve_traced(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERIO
                      "trigger misalignment")
     straight_bifurcation = perfect and inp.radius_m is None and path.bifurcation_rise_K is not None \
         and path.bifurcation_rise_K >= 0.97 * upper  # the loss of stability is the straight track's own
+    path_stop = path.stop
     if path.bifurcation_rise_K is not None and path.bifurcation_rise_K < upper and not straight_bifurcation:
-        # the buckled branch that starts there is not traced: its trough is unknown, so no
-        # lower critical rise (and no allowable rise) can be given honestly
-        raise StabilityError(
-            f"the equilibrium path loses stability at a rise of {path.bifurcation_rise_K:.1f} K before its peak "
-            "(a bifurcation to another buckled shape, which this analysis does not follow); the upper critical "
-            "rise is at most that value, no lower critical rise can be given", "stability analysis")
+        # the branch that starts there is not traced: its trough is unknown from this path; the
+        # upper critical rise is at most the bifurcation rise, and the lower critical rise can only
+        # come from the buckled branch followed from elsewhere (solve_equilibrium_curve)
+        if inp.lateral_stiffness_N_per_m2 is not None:
+            raise StabilityError(_bifurcation_words(path.bifurcation_rise_K), "stability analysis")
+        upper, d_up, lower, d_lo, shallow, response = path.bifurcation_rise_K, None, None, None, None, "progressive"
+        if rise_lim is not None and rise_lim > upper:
+            rise_lim = None
+        path_stop = STOP_BIFURCATION
     if lower is not None and lower > upper:
         lower = upper
-    allow, words = CRITERIA[criterion](min(upper, upper_traced), lower, rise_lim)
+    allow, words = CRITERIA[criterion](min(upper, upper_traced), lower, rise_lim, shallow)
     if perfect:
         notes.append(_TRIGGER_NOTE)
         if upper_traced >= MAX_RISE_K and lower is None and rise_lim is None:
@@ -644,6 +725,8 @@ def _solve_traced(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERIO
         buckle_half_length_m=half,
         notes=tuple(notes),
         criterion_name=criterion,
+        shallow_trough_rise_K=None if shallow is None else float(shallow),
+        path_stop=path_stop,
     )
 
 

@@ -611,3 +611,154 @@ def bifurcation_rise(inp: TrackStabilityInput, element_m: float = ELEMENT_LENGTH
     return float(P / (inp.EA_N * inp.alpha_per_K))
 
 
+
+
+# ----------------------------------------------------------------------------------------------
+# The buckled branch of strong track, followed back from a larger misalignment
+# ----------------------------------------------------------------------------------------------
+
+#: Misalignments [m] tried, in order, to reach the buckled branch of a track whose own path shows
+#: no peak below the analysis limit (the first that shows a snap-through is used).
+BRANCH_START_MISALIGNMENTS_M = (0.05, 0.1, 0.2)
+#: Largest step of the misalignment along the continuation, as a change of its logarithm [-].
+BRANCH_LOG_STEP = 0.2
+
+
+def _solve_at_centre(M: _Model, q: np.ndarray, T: float, u: float):
+    """Equilibrium with the centre's lateral displacement prescribed to ``u`` [m]; ``(q, T)`` or None."""
+    qg = q.copy()
+    qg[0] = u
+    res = _newton(M, qg, T, 0, maxit=30)
+    return None if res is None else (res[0], res[1])
+
+
+def _local_trough(M: _Model, q: np.ndarray, T: float, u: float, rel: float = 0.12, max_shift: int = 16):
+    """The lowest rise of the buckled branch near centre displacement ``u`` [m].
+
+    The branch is followed with the centre's displacement prescribed (the rise free), downhill
+    in steps of ``rel u`` until the rise grows on both sides; a parabola through the bracket, then
+    through a bracket a quarter as wide around its vertex, gives the trough. Where the branch
+    cannot be followed further with the centre's displacement (it folds back in that
+    displacement), the last state reached bounds the bracket. Returns ``(q, T, u)`` of the lowest
+    equilibrium solved (the rise is always that of a solved state), or None.
+    """
+    pts: dict[float, tuple] = {}
+
+    def reach(v, state, depth=0):
+        """Solve at ``v`` from ``state``, through intermediate displacements if Newton needs them."""
+        r = _solve_at_centre(M, state[0], state[1], v)
+        if r is None and depth < 3:
+            mid = reach(0.5 * (state[0][0] + v), state, depth + 1)
+            r = None if mid is None else reach(v, mid, depth + 1)
+        return r
+
+    def at(v, near):
+        """Rise at centre displacement ``v`` (solved from the state at ``near``); inf where the
+        branch cannot be reached (a wall of the bracket)."""
+        if v <= 0:
+            return math.inf
+        if v not in pts:
+            r = reach(v, pts[near])
+            if r is None:
+                return math.inf
+            pts[v] = r
+        return pts[v][1]
+
+    r = _solve_at_centre(M, q, T, u)
+    if r is None:
+        return None
+    pts[u] = r
+    b = u
+    for width in (rel * u, rel * u / 4):
+        a, c = b - width, b + width
+        Ta, Tb, Tc = at(a, b), pts[b][1], at(c, b)
+        for _ in range(max_shift):
+            if Tb <= Ta and Tb <= Tc:
+                break
+            if Ta < Tb:
+                c, Tc, b, Tb = b, Tb, a, Ta
+                a = b - width
+                Ta = at(a, b)
+            else:
+                a, Ta, b, Tb = b, Tb, c, Tc
+                c = b + width
+                Tc = at(c, b)
+        else:
+            return None
+        den = Ta - 2.0 * Tb + Tc
+        if math.isfinite(den) and den > 0:
+            v = b + 0.5 * width * (Ta - Tc) / den
+            if math.isfinite(at(v, b)) and pts[v][1] < Tb:
+                b = v
+    best = min(pts, key=lambda v: pts[v][1])
+    qb, Tb = pts[best]
+    return qb, Tb, best
+
+
+def _branch_start(inp: TrackStabilityInput, target_m: float, element_m: float, half_m: float):
+    """A state on the buckled branch: the trough of the first of :data:`BRANCH_START_MISALIGNMENTS_M`
+    above ``target_m`` whose path snaps through below the analysis limit; ``(d, q, T)`` or None."""
+    for d in BRANCH_START_MISALIGNMENTS_M:
+        if d <= target_m:
+            continue
+        M = _Model(inp, d, element_m, half_m)
+        try:
+            path = _trace(M)
+        except StabilityError:
+            continue
+        T = np.asarray(path.rise)
+        i_peak = next((i for i in range(1, len(T) - 1) if T[i] >= T[i - 1] and T[i + 1] < T[i]), None)
+        if i_peak is None:
+            continue
+        j = i_peak + int(np.argmin(T[i_peak:]))
+        if j >= len(T) - 1 or T[i_peak] - T[j] < SNAP_THRESHOLD_K:
+            continue
+        q, Tj = path.states[j]
+        return d, q, float(Tj)
+    return None
+
+
+def trough_by_continuation(inp: TrackStabilityInput, misalignment_m: float, element_m: float = ELEMENT_LENGTH_M,
+                           half_length_m: float = HALF_LENGTH_M):
+    """Lower critical rise of a track whose own equilibrium path peaks beyond the analysis limit.
+
+    The buckled branch is reached through a larger misalignment (:func:`_branch_start`) and
+    followed back to ``misalignment_m`` in steps of at most :data:`BRANCH_LOG_STEP` in its
+    logarithm (shorter where a step loses the branch), the trough found again at each step
+    (:func:`_local_trough`). The trough moves
+    continuously with the misalignment, so the lower critical rise does too (no jump where the
+    peak of the path crosses the analysis limit).
+
+    Returns
+    -------
+    (lower_K, displacement_m, start_m) or None
+        Lower critical rise [K], centre displacement at the trough [m] and the misalignment the
+        branch was reached with [m]; None when no start was found or the branch was lost.
+
+    References
+    ----------
+    Allgower, E. L. and Georg, K. (1990). *Numerical Continuation Methods*. Springer (natural
+    parameter continuation); Kerr, A. D. (1978), lower buckling temperature as the minimum of the
+    post-buckling branch.
+    """
+    start = _branch_start(inp, misalignment_m, element_m, half_length_m)
+    if start is None:
+        return None
+    d_s, q, T = start
+    u = float(q[0])
+    if u <= 0:
+        return None
+    d, step = d_s, BRANCH_LOG_STEP
+    while d > misalignment_m * (1 + 1e-12):
+        d_next = max(misalignment_m, d * math.exp(-step))
+        r = _local_trough(_Model(inp, float(d_next), element_m, half_length_m), q, T, u)
+        if r is None:  # the branch moved too far for one step: shorter steps
+            step /= 2.0
+            if step < BRANCH_LOG_STEP / 16:
+                return None
+            continue
+        (q, T, u), d = r, d_next
+        step = min(BRANCH_LOG_STEP, step * 1.5)
+    if not (0.0 < T < MAX_RISE_K):
+        return None
+    return float(T), float(u), float(d_s)

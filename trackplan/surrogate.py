@@ -46,7 +46,7 @@ from pathlib import Path
 import numpy as np
 
 #: Version of the stand-in's grid and of the model it stands in for; bump when either changes.
-MODEL_VERSION = "risk-surrogate-4"
+MODEL_VERSION = "risk-surrogate-5"
 #: Default grid: (low, high, points) of each input; factors and misalignment on log-spaced axes.
 #: With the default spreads (data/risk_inputs.csv) the grid spans about -5.6..+5.1 standard
 #: deviations of the peak resistance, -5.5..+5.5 of the longitudinal resistance and -4.7..+4.5
@@ -125,14 +125,13 @@ def point_input(base, peak_factor: float, longitudinal_factor: float, misalignme
 def full_model(base, peak_factor: float, longitudinal_factor: float, misalignment_m: float):
     """``(buckling_rise_K, upper_critical_rise_K, allowable_rise_K)`` of the full analysis at one
     point, each at most :data:`CAP_K`; NaNs where the curve cannot be traced."""
-    from trackplan.stability import StabilityError, analyse_stability, physical_base
+    from trackplan.stability import StabilityError, analyse_stability
 
     try:
         r = analyse_stability(point_input(base, float(peak_factor), float(longitudinal_factor), misalignment_m))
     except StabilityError:
         return (np.nan, np.nan, np.nan)
-    b = physical_base(r.upper_critical_rise_K, r.lower_critical_rise_K, r.rise_at_displacement_limit_K)[0]
-    return tuple(min(CAP_K, float(v)) for v in (b, r.upper_critical_rise_K, r.allowable_rise_K))
+    return tuple(min(CAP_K, float(v)) for v in (r.buckling_rise_K, r.upper_critical_rise_K, r.allowable_rise_K))
 
 
 def _solve_row(args):
