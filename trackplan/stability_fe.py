@@ -617,8 +617,9 @@ def bifurcation_rise(inp: TrackStabilityInput, element_m: float = ELEMENT_LENGTH
 # The buckled branch of strong track, followed back from a larger misalignment
 # ----------------------------------------------------------------------------------------------
 
-#: Misalignments [m] tried, in order, to reach the buckled branch of a track whose own path shows
-#: no peak below the analysis limit (the first that shows a snap-through is used).
+#: Misalignments [m] tried first, in order, to reach the buckled branch of a track whose own path
+#: shows no peak below the analysis limit (the first that shows a snap-through is used); then
+#: misalignments from 1.5 times the given one upward (weak track snaps through only with small ones).
 BRANCH_START_MISALIGNMENTS_M = (0.05, 0.1, 0.2)
 #: Largest step of the misalignment along the continuation, as a change of its logarithm [-].
 BRANCH_LOG_STEP = 0.2
@@ -696,9 +697,11 @@ def _local_trough(M: _Model, q: np.ndarray, T: float, u: float, rel: float = 0.1
 
 
 def _branch_start(inp: TrackStabilityInput, target_m: float, element_m: float, half_m: float):
-    """A state on the buckled branch: the trough of the first of :data:`BRANCH_START_MISALIGNMENTS_M`
-    above ``target_m`` whose path snaps through below the analysis limit; ``(d, q, T)`` or None."""
-    for d in BRANCH_START_MISALIGNMENTS_M:
+    """A state on the buckled branch: the trough of the first misalignment above ``target_m``
+    (:data:`BRANCH_START_MISALIGNMENTS_M`, then 1.5, 3, 6... times ``target_m``) whose path snaps
+    through below the analysis limit; ``(d, q, T)`` or None."""
+    small = [target_m * 1.5 * 2.0**k for k in range(8)]
+    for d in list(BRANCH_START_MISALIGNMENTS_M) + [d for d in small if d < BRANCH_START_MISALIGNMENTS_M[0]]:
         if d <= target_m:
             continue
         M = _Model(inp, d, element_m, half_m)

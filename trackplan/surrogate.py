@@ -13,17 +13,17 @@ Inputs of the stand-in (each a factor or value against the family's own track):
 * ``longitudinal_factor``: factor on the longitudinal resistance (1 when the track is held rigid);
 * ``misalignment_m``: misalignment amplitude [m] (its length stays the family's).
 
-Outputs (each at most :data:`CAP_K`, 100 K): the physical buckling rise (:func:`trackplan.stability.physical_base`: lower critical
+Outputs (each at most :data:`CAP_K`, 100 K, applied after the interpolation): the physical buckling rise (:func:`trackplan.stability.physical_base`: lower critical
 rise for snap-through, rise at 25 mm lateral displacement for progressive response, never above
 the upper critical rise), the upper critical rise and the allowable rise [K].
 
-Interpolation is multilinear in the logarithms of the inputs and of the outputs; a grid cell
-next to an edge where the output changes by far more than elsewhere along that axis straddles a
-jump of the full model and gives its smallest corner (never overstating the buckling rise across
-the jump). Outside the
-grid the full analysis answers (memoised on inputs rounded to 0.5 % in the logarithm). A grid
-point where the full analysis cannot trace the curve takes its neighbour's value along the
-misalignment axis and is counted in :attr:`Surrogate.filled_points`.
+Interpolation is in the logarithms of the inputs and of the outputs: each interval of the grid is
+divided into :data:`UPSAMPLE` parts, the values there from monotone piecewise-cubic (PCHIP)
+interpolation along each axis in turn (no overshoot at the kinks of the response, Fritsch and
+Carlson 1980), and the stand-in is multilinear on that finer grid. Outside the grid the full
+analysis answers (memoised on inputs rounded to 0.5 % in the logarithm). A grid point where the
+full analysis cannot trace the curve takes the value interpolated (in the logarithms) between its
+good neighbours along the misalignment axis and is counted in :attr:`Surrogate.filled_points`.
 
 The grid is cached on disk (``.npz``), keyed on a hash of the model version, the family's track
 inputs and the bundled preset files, in the user cache folder (``TRACKPLAN_CACHE_DIR`` relocates
@@ -33,6 +33,8 @@ References
 ----------
 Forrester, A., Sobester, A. and Keane, A. (2008). *Engineering Design via Surrogate Modelling*.
 Wiley (surrogates built on designed samples; error measured on independent test points).
+Fritsch, F. N. and Carlson, R. E. (1980). Monotone piecewise cubic interpolation. *SIAM Journal
+on Numerical Analysis* 17, 238-246 (PCHIP).
 """
 
 from __future__ import annotations
@@ -46,24 +48,23 @@ from pathlib import Path
 import numpy as np
 
 #: Version of the stand-in's grid and of the model it stands in for; bump when either changes.
-MODEL_VERSION = "risk-surrogate-5"
+MODEL_VERSION = "risk-surrogate-7"
 #: Default grid: (low, high, points) of each input; factors and misalignment on log-spaced axes.
 #: With the default spreads (data/risk_inputs.csv) the grid spans about -5.6..+5.1 standard
 #: deviations of the peak resistance, -5.5..+5.5 of the longitudinal resistance and -4.7..+4.5
-#: of the misalignment (median 20 mm), so that the full model is rarely needed beyond it.
-PEAK_AXIS = (0.25, 3.5, 9)
+#: of the misalignment (median 20 mm), so that the full model is rarely needed beyond it. The
+#: response changes fastest along the misalignment (snap-through to progressive), so that axis is
+#: the finest (steps of 20 %).
+PEAK_AXIS = (0.25, 3.5, 12)
 LONGITUDINAL_AXIS = (0.2, 5.0, 5)
-MISALIGNMENT_AXIS_M = (0.003, 0.12, 11)
+MISALIGNMENT_AXIS_M = (0.003, 0.12, 21)
+#: Each interval of the grid is divided into this many for the interpolation (PCHIP between).
+UPSAMPLE = 4
 #: Rises above this are given as this value [K]: no rail temperature reaches a rise of 100 K above a
-#: neutral temperature in use (80 degC rail above a -20 degC neutral), and the analysis gives the rise
-#: of a track that does not buckle at all as its limit of 200 K, a jump no interpolation can follow.
+#: neutral temperature in use (80 degC rail above a -20 degC neutral). The grid keeps the analysis's
+#: own values (up to its limit of 200 K) and the cap is applied after the interpolation, so that a
+#: cell the cap crosses is interpolated on the smooth values, not across the kink of the cap.
 CAP_K = 100.0
-#: A grid edge along which the output changes (in its logarithm) by more than this many times the
-#: median change along that axis, and by more than :data:`JUMP_MIN_LOG`, straddles a jump of the
-#: full model (snap-through to progressive response, the re-traced buckled branch, the cap); the
-#: cells touching it take their smallest corner value instead of the interpolation (safe side).
-JUMP_RATIO = 3.0
-JUMP_MIN_LOG = 0.3
 #: Names of the outputs, in the order of the stored arrays.
 OUTPUTS = ("buckling_rise_K", "upper_critical_rise_K", "allowable_rise_K")
 ENV_CACHE = "TRACKPLAN_CACHE_DIR"
@@ -122,21 +123,45 @@ def point_input(base, peak_factor: float, longitudinal_factor: float, misalignme
         misalignment_m=float(misalignment_m))
 
 
-def full_model(base, peak_factor: float, longitudinal_factor: float, misalignment_m: float):
+def full_model(base, peak_factor: float, longitudinal_factor: float, misalignment_m: float,
+               cap_K: float = CAP_K):
     """``(buckling_rise_K, upper_critical_rise_K, allowable_rise_K)`` of the full analysis at one
-    point, each at most :data:`CAP_K`; NaNs where the curve cannot be traced."""
+    point, each at most ``cap_K`` [K]; NaNs where the curve cannot be traced."""
     from trackplan.stability import StabilityError, analyse_stability
 
     try:
         r = analyse_stability(point_input(base, float(peak_factor), float(longitudinal_factor), misalignment_m))
     except StabilityError:
         return (np.nan, np.nan, np.nan)
-    return tuple(min(CAP_K, float(v)) for v in (r.buckling_rise_K, r.upper_critical_rise_K, r.allowable_rise_K))
+    return tuple(min(cap_K, float(v)) for v in (r.buckling_rise_K, r.upper_critical_rise_K, r.allowable_rise_K))
 
 
 def _solve_row(args):
+    from trackplan.track import MAX_RISE_K
+
     base, pf, lf, mis = args
-    return full_model(base, pf, lf, mis)
+    return full_model(base, pf, lf, mis, cap_K=MAX_RISE_K)
+
+
+def fine_grid(log_axes: list, log_values: np.ndarray):
+    """Divide each interval of the grid into :data:`UPSAMPLE` parts, the values there from PCHIP
+    interpolation along each axis in turn (tensor product; monotone between grid points, so no
+    overshoot where the response has a kink). ``log_values`` has the outputs on its first axis.
+
+    Returns ``(fine log axes, fine log values)``.
+    """
+    from scipy.interpolate import PchipInterpolator
+
+    axes, V = [], np.asarray(log_values, dtype=float)
+    for k, la in enumerate(log_axes):
+        if la.size < 3:  # two points: PCHIP is the straight line the multilinear step draws anyway
+            axes.append(la)
+            continue
+        fine = np.concatenate([np.linspace(la[i], la[i + 1], UPSAMPLE, endpoint=False) for i in range(la.size - 1)]
+                              + [la[-1:]])
+        V = PchipInterpolator(la, V, axis=k + 1)(fine)
+        axes.append(fine)
+    return axes, V
 
 
 @dataclass
@@ -150,7 +175,8 @@ class Surrogate:
     axes : list of numpy.ndarray
         Grid axes: peak factor [-], longitudinal factor [-], misalignment [m].
     values : numpy.ndarray
-        Shape ``(3, n_peak, n_long, n_mis)``: the :data:`OUTPUTS` at the grid points [K].
+        Shape ``(3, n_peak, n_long, n_mis)``: the :data:`OUTPUTS` at the grid points [K], as the
+        analysis gives them (up to its limit of 200 K; :data:`CAP_K` is applied on interpolation).
     filled_points : int
         Grid points where the full analysis failed and a neighbour's value stands in.
     """
@@ -164,30 +190,11 @@ class Surrogate:
     fallback_calls: int = 0
     _memo: dict = field(default_factory=dict, repr=False)
 
-    @property
-    def log_values(self) -> np.ndarray:
-        if not hasattr(self, "_logv"):
-            self._logv = np.log(self.values)
-        return self._logv
-
-    def jump_cells(self, output: int = 0) -> np.ndarray:
-        """Boolean array of the grid cells that straddle a jump of the full model (see :data:`JUMP_RATIO`)."""
-        cache = self.__dict__.setdefault("_jumps", {})
-        if output not in cache:
-            V = self.log_values[output]
-            cells = np.zeros(tuple(n - 1 for n in V.shape), dtype=bool)
-            for a in range(3):
-                d = np.abs(np.diff(V, axis=a))
-                edge = d > max(JUMP_MIN_LOG, JUMP_RATIO * float(np.nanmedian(d)))
-                others = [b for b in range(3) if b != a]
-                for c1 in (0, 1):
-                    for c2 in (0, 1):
-                        sl = [slice(None)] * 3
-                        sl[others[0]] = slice(c1, V.shape[others[0]] - 1 + c1)
-                        sl[others[1]] = slice(c2, V.shape[others[1]] - 1 + c2)
-                        cells |= edge[tuple(sl)]
-            cache[output] = cells
-        return cache[output]
+    def _fine(self):
+        """The finer grid the interpolation works on: ``(log axes, log values)`` (see :data:`UPSAMPLE`)."""
+        if "_fine_grid" not in self.__dict__:
+            self.__dict__["_fine_grid"] = fine_grid([np.log(a) for a in self.axes], np.log(self.values))
+        return self.__dict__["_fine_grid"]
 
     def in_domain(self, peak_factor, longitudinal_factor, misalignment_m) -> np.ndarray:
         x = np.broadcast_arrays(peak_factor, longitudinal_factor, misalignment_m)
@@ -197,35 +204,28 @@ class Surrogate:
         return ok
 
     def interpolate(self, peak_factor, longitudinal_factor, misalignment_m, output: int = 0) -> np.ndarray:
-        """Multilinear interpolation in log space (inputs clipped to the grid) [K]; a cell across a
-        jump (:meth:`jump_cells`) gives its smallest corner."""
+        """The output at each point (inputs clipped to the grid), at most :data:`CAP_K` [K]:
+        multilinear in the logarithms on the finer grid of :meth:`_fine`."""
         x = [np.log(np.asarray(v, dtype=float)) for v in np.broadcast_arrays(peak_factor, longitudinal_factor,
                                                                           misalignment_m)]
         shape = x[0].shape
+        log_axes, log_values = self._fine()
         idx, w = [], []
-        for a, v in zip(self.axes, x):
-            la = np.log(a)
+        for la, v in zip(log_axes, x):
             v = np.clip(v.ravel(), la[0], la[-1])
             i = np.clip(np.searchsorted(la, v, side="right") - 1, 0, la.size - 2)
             idx.append(i)
             w.append((v - la[i]) / (la[i + 1] - la[i]))
-        V = self.log_values[output]
+        V = log_values[output]
         out = np.zeros(idx[0].size)
-        lo = np.full(idx[0].size, np.inf)
-        hi = np.full(idx[0].size, -np.inf)
         for c0 in (0, 1):
             w0 = w[0] if c0 else 1 - w[0]
             for c1 in (0, 1):
                 w1 = w[1] if c1 else 1 - w[1]
                 for c2 in (0, 1):
                     w2 = w[2] if c2 else 1 - w[2]
-                    corner = V[idx[0] + c0, idx[1] + c1, idx[2] + c2]
-                    out += w0 * w1 * w2 * corner
-                    np.minimum(lo, corner, out=lo)
-                    np.maximum(hi, corner, out=hi)
-        jump = self.jump_cells(output)[idx[0], idx[1], idx[2]]
-        out[jump] = lo[jump]
-        return np.exp(out).reshape(shape)
+                    out += w0 * w1 * w2 * V[idx[0] + c0, idx[1] + c1, idx[2] + c2]
+        return np.minimum(CAP_K, np.exp(out)).reshape(shape)
 
     def __call__(self, peak_factor, longitudinal_factor, misalignment_m, output: int = 0) -> np.ndarray:
         """The output at each point: interpolated inside the grid, the full model outside it [K]."""
@@ -275,17 +275,17 @@ def build(base, axes=None, processes: int | None = None) -> Surrogate:
         raise StabilityError("the stability analysis failed at every point of the stand-in's grid", "risk stand-in")
     if bad.any():
         filled = int(bad.sum())
-        # nearest good value along the misalignment axis, then along the peak axis
+        # interpolated (in the logarithms) between the good values along the misalignment axis,
+        # then along the peak axis, then the longitudinal axis (the end values held beyond them)
         for axis in (3, 1, 2):
+            la = np.log(axes[axis - 1])
             for o in range(len(OUTPUTS)):
                 v = np.moveaxis(vals[o], axis - 1, -1)
                 for ix in np.ndindex(v.shape[:-1]):
                     line = v[ix]
                     good = np.isfinite(line) & (line > 0)
                     if good.any() and not good.all():
-                        gi = np.flatnonzero(good)
-                        near = gi[np.abs(np.arange(line.size)[:, None] - gi[None, :]).argmin(axis=1)]
-                        line[~good] = line[near[~good]]
+                        line[~good] = np.exp(np.interp(la[~good], la[good], np.log(line[good])))
     vals = np.where(np.isfinite(vals) & (vals > 0), vals, np.nan)
     return Surrogate(base=base, axes=axes, values=vals, filled_points=filled)
 
