@@ -515,9 +515,16 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
                                              f"the path loses stability at a rise of {res.upper_critical_rise_K:.1f} K "
                                              "before its peak (a bifurcation the analysis does not follow; the upper "
                                              "critical rise is given as that rise)")
-            if followed is None:
+            if followed is not None:
+                return followed
+            if res.rise_at_displacement_limit_K is None:
                 raise StabilityError(_bifurcation_words(res.upper_critical_rise_K), "stability analysis")
-            return followed
+            # no larger misalignment snaps through (the response is turning progressive) and the
+            # displacement limit was reached before the loss of stability: that limit governs
+            return dataclasses.replace(res, notes=res.notes + (
+                f"the path loses stability at a rise of {res.upper_critical_rise_K:.1f} K, after reaching the "
+                f"{DISPLACEMENT_LIMIT_M * 1e3:.0f} mm displacement limit at {res.rise_at_displacement_limit_K:.1f} K, "
+                "and no larger misalignment snaps through: the displacement limit governs",))
     except StabilityError as exc:
         if inp.lateral_stiffness_N_per_m2 is not None or inp.misalignment_m >= RETRACE_MISALIGNMENT_M:
             raise
