@@ -458,7 +458,7 @@ def _bifurcation_words(rise_K: float) -> str:
 
 
 def _with_followed_branch(res: StabilityResult, criterion: str, element_length_m: float, half_length_m: float,
-                          why: str) -> StabilityResult | None:
+                          why: str, branch: tuple | None = None) -> StabilityResult | None:
     """``res`` with the lower critical rise of its own buckled branch, reached through a larger
     misalignment and followed back (:func:`trackplan.stability_fe.trough_by_continuation`); None
     when the branch cannot be followed or its trough is not below the upper critical rise."""
@@ -468,7 +468,8 @@ def _with_followed_branch(res: StabilityResult, criterion: str, element_length_m
     if inp.misalignment_m >= BRANCH_START_MISALIGNMENTS_M[-1]:
         return None
     d0 = TRIGGER_MISALIGNMENT_M if inp.misalignment_m == 0.0 else inp.misalignment_m
-    branch = trough_by_continuation(inp, d0, element_length_m, half_length_m)
+    if branch is None:
+        branch = trough_by_continuation(inp, d0, element_length_m, half_length_m)
     if branch is None or branch[0] >= res.upper_critical_rise_K:
         return None
     lower, d_lo, d_start = branch
@@ -480,6 +481,39 @@ def _with_followed_branch(res: StabilityResult, criterion: str, element_length_m
         response="snap-through" if res.upper_critical_rise_K - lower >= SNAP_THRESHOLD_K else "progressive",
         criterion=words, shallow_trough_rise_K=None,
         notes=tuple(n for n in res.notes if n != _TRIGGER_NOTE) + (note,))
+
+
+def _partial_path_with_branch(inp: TrackStabilityInput, exc: StabilityError, criterion: str,
+                              element_length_m: float, half_length_m: float) -> StabilityResult | None:
+    """The result of a path that could not be followed to its end: the part traced gives the upper
+    critical rise (its highest rise, a lower bound when the peak was not passed) and the rise at
+    25 mm before it; the lower critical rise is that of the buckled branch followed back from a
+    larger misalignment. None when there is no partial path or no such branch below its peak."""
+    path = getattr(exc, "partial_path", None)
+    if path is None or len(path.rise) < 3 or inp.misalignment_m >= BRANCH_START_MISALIGNMENTS_M[-1]:
+        return None
+    d0 = TRIGGER_MISALIGNMENT_M if inp.misalignment_m == 0.0 else inp.misalignment_m
+    branch = trough_by_continuation(inp, d0, element_length_m, half_length_m)
+    T, D = np.asarray(path.rise), np.asarray(path.disp)
+    k = int(np.argmax(T))
+    upper = float(min(T[k], MAX_RISE_K))
+    if branch is None or branch[0] >= upper:
+        return None
+    lower, d_lo, d_start = branch
+    rise_lim = None
+    if D[: k + 1].max() >= DISPLACEMENT_LIMIT_M:
+        i = int(np.argmax(D[: k + 1] >= DISPLACEMENT_LIMIT_M))
+        rise_lim = float(np.interp(DISPLACEMENT_LIMIT_M, D[i - 1:i + 1], T[i - 1:i + 1]))
+    allow, words = CRITERIA[criterion](upper, lower, rise_lim)
+    return StabilityResult(
+        upper_critical_rise_K=upper, lower_critical_rise_K=float(lower), allowable_rise_K=float(allow),
+        response="snap-through" if upper - lower >= SNAP_THRESHOLD_K else "progressive", criterion=words,
+        curve_displacement_m=D, curve_rise_K=T, inputs=inp, upper_critical_displacement_m=float(D[k]),
+        lower_critical_displacement_m=d_lo, rise_at_displacement_limit_K=rise_lim, criterion_name=criterion,
+        path_stop="lost", notes=(
+            f"the equilibrium path could not be followed to its end ({exc.bare_message}); the upper critical rise "
+            f"is the highest rise it reached, and the buckled branch was reached through a {d_start * 1e3:g} mm "
+            f"misalignment and followed back to the given one (lower critical rise {lower:.1f} K)",))
 
 
 def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERION,
@@ -526,7 +560,12 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
                 f"{DISPLACEMENT_LIMIT_M * 1e3:.0f} mm displacement limit at {res.rise_at_displacement_limit_K:.1f} K, "
                 "and no larger misalignment snaps through: the displacement limit governs",))
     except StabilityError as exc:
-        if inp.lateral_stiffness_N_per_m2 is not None or inp.misalignment_m >= RETRACE_MISALIGNMENT_M:
+        if inp.lateral_stiffness_N_per_m2 is not None:
+            raise
+        rescued = _partial_path_with_branch(inp, exc, criterion, element_length_m, half_length_m)
+        if rescued is not None:
+            return rescued
+        if inp.misalignment_m >= RETRACE_MISALIGNMENT_M:
             raise
         # the path of the given misalignment could not be followed: a larger misalignment lowers
         # both critical rises, so its result (if it can be traced) is on the safe side
@@ -541,6 +580,21 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
                 f"({exc.bare_message}); the result is that of a {RETRACE_MISALIGNMENT_M * 1e3:g} mm misalignment, "
                 "whose critical rises are lower (on the safe side)")
         return dataclasses.replace(alt, notes=alt.notes + (note,))
+    suspect = {"path following stopped after the trough": "the path could not be followed past its trough"}
+    if inp.radius_m is not None and inp.misalignment_m < RETRACE_MISALIGNMENT_M:
+        suspect["past the trough"] = "on a curve the path can end on a higher buckled branch"
+    if (res.path_stop in suspect and res.lower_critical_rise_K is not None
+            and inp.misalignment_m < BRANCH_START_MISALIGNMENTS_M[-1]):
+        # a trough where the path could not be followed further may be a bump on the descent, and
+        # on curves the path can end on another, higher branch: the branch followed back from a
+        # larger misalignment decides if the trough lies lower
+        d0 = TRIGGER_MISALIGNMENT_M if inp.misalignment_m == 0.0 else inp.misalignment_m
+        branch = trough_by_continuation(inp, d0, element_length_m, half_length_m)
+        if branch is not None and branch[0] < res.lower_critical_rise_K - 0.01:
+            followed = _with_followed_branch(res, criterion, element_length_m, half_length_m,
+                                             suspect[res.path_stop], branch)
+            if followed is not None:
+                return followed
     reached_limit = float(np.max(res.curve_rise_K)) >= MAX_RISE_K - 1e-6
     if (res.lower_critical_rise_K is not None or not reached_limit or inp.lateral_stiffness_N_per_m2 is not None
             or inp.misalignment_m >= BRANCH_START_MISALIGNMENTS_M[-1]):
@@ -638,9 +692,11 @@ def _solve_traced(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERIO
         elif path.stop == "path following stopped on a rising curve":
             d_lo, lower = float(D[j]), float(T[j])
         else:
-            raise StabilityError(
+            exc = StabilityError(
                 f"the equilibrium curve still falls at the end of the traced range ({path.stop}, rise "
                 f"{T[-1]:.1f} K at {D[-1] * 1e3:.0f} mm); no lower critical rise found", "stability analysis")
+            exc.partial_path = path
+            raise exc
         if upper - lower >= SNAP_THRESHOLD_K:
             response = "snap-through"
         else:
@@ -790,8 +846,11 @@ def with_unloaded(result: StabilityResult) -> StabilityResult:
 
 
 def clear_cache() -> None:
-    """Forget cached results (for benchmarks and tests)."""
+    """Forget cached results and followed branches (for benchmarks and tests)."""
+    from trackplan import stability_fe
+
     _cached.cache_clear()
+    stability_fe._BRANCHES.clear()
 
 
 __all__ = [

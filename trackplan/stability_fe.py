@@ -390,6 +390,14 @@ def _positive_definite(M: _Model, q: np.ndarray, T: float) -> bool:
         return False
 
 
+def _lost(path, message: str) -> StabilityError:
+    """The error of a path that could not be followed further, carrying the part traced
+    (``partial_path``: the rises reached bound the upper critical rise from below)."""
+    exc = StabilityError(message, "stability analysis")
+    exc.partial_path = path
+    return exc
+
+
 @dataclass
 class _Path:
     disp: list = field(default_factory=list)    # largest lateral displacement [m]
@@ -419,6 +427,7 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
     trough_seen = False
     Tmax = -np.inf
     Tmin_after = np.inf
+    wmin_after = 0.0  # largest displacement at the lowest rise after the peak [m]
     pd_checked_until_peak = True
     pending = None
 
@@ -466,11 +475,9 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
                 path.stop = "path following stopped on a rising curve"
                 return path
             if step < step_min:
-                raise StabilityError(
-                    f"the equilibrium path could not be followed beyond a rise of {T_prev:.1f} K and a lateral "
-                    f"displacement of {path.disp[-1] * 1e3:.1f} mm (no converged state); check the parameters",
-                    "stability analysis",
-                )
+                raise _lost(path, f"the equilibrium path could not be followed beyond a rise of {T_prev:.1f} K and a "
+                                  f"lateral displacement of {path.disp[-1] * 1e3:.1f} mm (no converged state); check the "
+                                  "parameters")
             continue
         wabs = np.abs(qn[M.wnodes])
         wmax = float(wabs.max())
@@ -483,10 +490,8 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
             if rising_far():
                 path.stop = "path following stopped on a rising curve"
                 return path
-            raise StabilityError(
-                f"the equilibrium path turns back at a rise of {T_prev:.1f} K and a lateral displacement of "
-                f"{path.disp[-1] * 1e3:.1f} mm before a lower critical rise was found; check the parameters",
-                "stability analysis")
+            raise _lost(path, f"the equilibrium path turns back at a rise of {T_prev:.1f} K and a lateral displacement "
+                              f"of {path.disp[-1] * 1e3:.1f} mm before a lower critical rise was found; check the parameters")
         path.disp.append(wmax)
         path.rise.append(float(Tn))
         path.s.append(path.s[-1] + dw)
@@ -508,11 +513,11 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
         if not peak_seen:
             if Tn < Tmax - 1e-9:
                 peak_seen = True
-                Tmin_after = Tn
+                Tmin_after, wmin_after = Tn, wmax
             Tmax = max(Tmax, Tn)
         else:
             if Tn < Tmin_after:
-                Tmin_after = Tn
+                Tmin_after, wmin_after = Tn, wmax
             elif not trough_seen and Tn > Tmin_after + 1e-9:
                 trough_seen = True
         # buckle reaching the far end of the model
@@ -528,7 +533,10 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
         if wmax >= MAX_DISPLACEMENT_M:
             path.stop = "displacement limit"
             return path
-        if trough_seen and Tn > Tmin_after + max(1.0, 0.05 * (Tmax - Tmin_after)) and wmax > 2 * DISPLACEMENT_LIMIT_M:
+        # past the trough: risen clearly above it, and well beyond its displacement (a small bump
+        # on a long, steep descent from a high peak is not the trough: the path goes on falling)
+        if (trough_seen and Tn > Tmin_after + max(1.0, 0.05 * (Tmax - Tmin_after)) and wmax > 2 * DISPLACEMENT_LIMIT_M
+                and wmax > 1.5 * wmin_after):
             path.stop = "past the trough"
             return path
         # step control: iterations, rise change, resolution relative to the displacement
@@ -744,24 +752,66 @@ def trough_by_continuation(inp: TrackStabilityInput, misalignment_m: float, elem
     parameter continuation); Kerr, A. D. (1978), lower buckling temperature as the minimum of the
     post-buckling branch.
     """
-    start = _branch_start(inp, misalignment_m, element_m, half_length_m)
-    if start is None:
+    import dataclasses
+
+    key = (dataclasses.replace(inp, misalignment_m=0.0), float(element_m), float(half_length_m))
+    known = _BRANCHES.get(key)
+    if known is None:  # the branch of this track has not been reached yet
+        start = _branch_start(inp, misalignment_m, element_m, half_length_m)
+        if start is None or start[1][0] <= 0:
+            return None
+        d_s, q, T = start
+        known = {"start": d_s, "ladder": [(q, T, float(q[0]))]}
+        if len(_BRANCHES) >= _BRANCHES_MAX:
+            _BRANCHES.pop(next(iter(_BRANCHES)))
+        _BRANCHES[key] = known
+    d_s, ladder = known["start"], known["ladder"]
+    if misalignment_m >= d_s:
         return None
-    d_s, q, T = start
-    u = float(q[0])
-    if u <= 0:
+    # the branch is followed along a fixed ladder of misalignments d_s exp(-k BRANCH_LOG_STEP)
+    # (kept, so that each track's branch is followed once, whatever the order of the calls) and
+    # from the rung just above the given misalignment to it
+    k = int(math.floor(math.log(d_s / misalignment_m) / BRANCH_LOG_STEP + 1e-9))
+    while len(ladder) <= k:
+        i = len(ladder)
+        if ladder[-1] is None:
+            return None
+        ladder.append(_advance(inp, ladder[-1], d_s * math.exp(-(i - 1) * BRANCH_LOG_STEP),
+                               d_s * math.exp(-i * BRANCH_LOG_STEP), element_m, half_length_m))
+    state = ladder[k]
+    d_k = d_s * math.exp(-k * BRANCH_LOG_STEP)
+    if state is not None and misalignment_m < d_k * (1 - 1e-12):
+        state = _advance(inp, state, d_k, misalignment_m, element_m, half_length_m)
+    if state is None:
         return None
-    d, step = d_s, BRANCH_LOG_STEP
-    while d > misalignment_m * (1 + 1e-12):
-        d_next = max(misalignment_m, d * math.exp(-step))
+    _, T, u = state
+    if not (0.0 < T < MAX_RISE_K):
+        return None
+    return float(T), float(u), float(d_s)
+
+
+def _advance(inp: TrackStabilityInput, state: tuple, d_from: float, d_to: float, element_m: float,
+             half_length_m: float):
+    """Follow the trough ``state = (q, T, u)`` of the buckled branch from misalignment ``d_from``
+    to ``d_to`` [m] (shorter steps where one loses the branch); the new state or None."""
+    q, T, u = state
+    d, step = d_from, BRANCH_LOG_STEP
+    while d > d_to * (1 + 1e-12):
+        d_next = max(d_to, d * math.exp(-step))
         r = _local_trough(_Model(inp, float(d_next), element_m, half_length_m), q, T, u)
-        if r is None:  # the branch moved too far for one step: shorter steps
+        if r is None:
             step /= 2.0
             if step < BRANCH_LOG_STEP / 16:
                 return None
             continue
         (q, T, u), d = r, d_next
         step = min(BRANCH_LOG_STEP, step * 1.5)
-    if not (0.0 < T < MAX_RISE_K):
-        return None
-    return float(T), float(u), float(d_s)
+    return q, T, u
+
+
+#: The buckled branches followed so far in this process, by track (its misalignment set to 0),
+#: element and half-length: the start misalignment and the troughs found, by misalignment. A
+#: track's other misalignments continue from the nearest larger one already followed (the
+#: stand-in's grid follows each branch once). At most :data:`_BRANCHES_MAX` tracks are kept.
+_BRANCHES: dict = {}
+_BRANCHES_MAX = 512
