@@ -446,6 +446,13 @@ def _critical_point(M: _Model, path: _Path, i: int, sign: int):
 RETRACE_MISALIGNMENT_M = 0.05
 
 
+#: On a curve, a path that falls from a peak above this rise [K] (a small misalignment on strong
+#: track) descends steeply and far and can end on a higher buckled branch than the one its
+#: trough belongs to: its trough is checked against the branch followed back from a larger
+#: misalignment. (Seen between 150 and 200 K in sweeps of 300-600 m curves; lower peaks fall
+#: gently and were not seen to.)
+STEEP_PEAK_K = 140.0
+
 #: :attr:`StabilityResult.path_stop` of a path that lost stability before its peak.
 STOP_BIFURCATION = "bifurcation before the peak"
 
@@ -581,7 +588,8 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
                 "whose critical rises are lower (on the safe side)")
         return dataclasses.replace(alt, notes=alt.notes + (note,))
     suspect = {"path following stopped after the trough": "the path could not be followed past its trough"}
-    if inp.radius_m is not None and inp.misalignment_m < RETRACE_MISALIGNMENT_M:
+    if (inp.radius_m is not None and inp.misalignment_m < RETRACE_MISALIGNMENT_M
+            and res.upper_critical_rise_K >= STEEP_PEAK_K):
         suspect["past the trough"] = "on a curve the path can end on a higher buckled branch"
     if (res.path_stop in suspect and res.lower_critical_rise_K is not None
             and inp.misalignment_m < BRANCH_START_MISALIGNMENTS_M[-1]):
