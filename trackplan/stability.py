@@ -500,17 +500,30 @@ def _partial_path_with_branch(inp: TrackStabilityInput, exc: StabilityError, cri
     if path is None or len(path.rise) < 3 or inp.misalignment_m >= BRANCH_START_MISALIGNMENTS_M[-1]:
         return None
     d0 = TRIGGER_MISALIGNMENT_M if inp.misalignment_m == 0.0 else inp.misalignment_m
-    branch = trough_by_continuation(inp, d0, element_length_m, half_length_m)
     T, D = np.asarray(path.rise), np.asarray(path.disp)
     k = int(np.argmax(T))
     upper = float(min(T[k], MAX_RISE_K))
-    if branch is None or branch[0] >= upper:
-        return None
-    lower, d_lo, d_start = branch
     rise_lim = None
     if D[: k + 1].max() >= DISPLACEMENT_LIMIT_M:
         i = int(np.argmax(D[: k + 1] >= DISPLACEMENT_LIMIT_M))
         rise_lim = float(np.interp(DISPLACEMENT_LIMIT_M, D[i - 1:i + 1], T[i - 1:i + 1]))
+    branch = trough_by_continuation(inp, d0, element_length_m, half_length_m)
+    if (branch is None or branch[0] >= upper) and rise_lim is not None:
+        # rising past the displacement limit before it was lost (and no buckled branch below its
+        # highest rise): progressive up to there, and the limit governs (as for a path that stops
+        # on a rising curve beyond twice the limit)
+        allow, words = CRITERIA[criterion](upper, None, rise_lim)
+        return StabilityResult(
+            upper_critical_rise_K=upper, lower_critical_rise_K=None, allowable_rise_K=float(allow),
+            response="progressive", criterion=words, curve_displacement_m=D, curve_rise_K=T, inputs=inp,
+            upper_critical_displacement_m=float(D[k]), rise_at_displacement_limit_K=rise_lim,
+            criterion_name=criterion, path_stop="lost", notes=(
+                f"the equilibrium path could not be followed to its end ({exc.bare_message}); it rose past the "
+                f"{DISPLACEMENT_LIMIT_M * 1e3:.0f} mm displacement limit before, and no buckled branch was found below "
+                "its highest rise: the displacement limit governs",))
+    if branch is None or branch[0] >= upper:
+        return None
+    lower, d_lo, d_start = branch
     allow, words = CRITERIA[criterion](upper, lower, rise_lim)
     return StabilityResult(
         upper_critical_rise_K=upper, lower_critical_rise_K=float(lower), allowable_rise_K=float(allow),
