@@ -631,6 +631,10 @@ def bifurcation_rise(inp: TrackStabilityInput, element_m: float = ELEMENT_LENGTH
 BRANCH_START_MISALIGNMENTS_M = (0.05, 0.1, 0.2)
 #: Largest step of the misalignment along the continuation, as a change of its logarithm [-].
 BRANCH_LOG_STEP = 0.2
+#: Largest relative fall of the trough in one step toward a smaller misalignment [-]: the lower
+#: critical rise grows (slowly) as the misalignment shrinks, so a trough that falls by more than
+#: this has left the branch (seen on weak curved track, where it fell toward zero).
+BRANCH_MAX_FALL = 0.02
 
 
 def _solve_at_centre(M: _Model, q: np.ndarray, T: float, u: float):
@@ -799,6 +803,8 @@ def _advance(inp: TrackStabilityInput, state: tuple, d_from: float, d_to: float,
     while d > d_to * (1 + 1e-12):
         d_next = max(d_to, d * math.exp(-step))
         r = _local_trough(_Model(inp, float(d_next), element_m, half_length_m), q, T, u)
+        if r is not None and r[1] < (1.0 - BRANCH_MAX_FALL) * T:
+            r = None  # the lower critical rise grows as the misalignment shrinks: a fall is another branch
         if r is None:
             step /= 2.0
             if step < BRANCH_LOG_STEP / 16:
