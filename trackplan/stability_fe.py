@@ -475,9 +475,9 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
                 path.stop = "path following stopped on a rising curve"
                 return path
             if step < step_min:
-                raise _lost(path, f"the equilibrium path could not be followed beyond a rise of {T_prev:.1f} K and a "
-                                  f"lateral displacement of {path.disp[-1] * 1e3:.1f} mm (no converged state); check the "
-                                  "parameters")
+                raise _lost(path, f"the equilibrium path could not be followed beyond a rise of {T_prev:.1f} K "
+                                  f"and a lateral displacement of {path.disp[-1] * 1e3:.1f} mm (no converged state); "
+                                  "check the parameters")
             continue
         wabs = np.abs(qn[M.wnodes])
         wmax = float(wabs.max())
@@ -490,8 +490,9 @@ def _trace(M: _Model, progress: Callable[[float], None] | None = None, dT_cap: f
             if rising_far():
                 path.stop = "path following stopped on a rising curve"
                 return path
-            raise _lost(path, f"the equilibrium path turns back at a rise of {T_prev:.1f} K and a lateral displacement "
-                              f"of {path.disp[-1] * 1e3:.1f} mm before a lower critical rise was found; check the parameters")
+            raise _lost(path, f"the equilibrium path turns back at a rise of {T_prev:.1f} K and a lateral "
+                              f"displacement of {path.disp[-1] * 1e3:.1f} mm before a lower critical rise was found; "
+                              "check the parameters")
         path.disp.append(wmax)
         path.rise.append(float(Tn))
         path.s.append(path.s[-1] + dw)
