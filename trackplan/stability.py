@@ -327,6 +327,20 @@ RETRACE_MISALIGNMENT_M = 0.05
 #: gently and were not seen to.)
 STEEP_PEAK_K = 140.0
 
+def _traced_misalignment(inp: TrackStabilityInput) -> float:
+    """The misalignment the path is traced with [m]: the given one, or the trigger for a perfect track."""
+    return TRIGGER_MISALIGNMENT_M if inp.misalignment_m == 0.0 else inp.misalignment_m
+
+
+def _rise_at_limit(D: np.ndarray, T: np.ndarray, last: int) -> float | None:
+    """Rise [K] at which the lateral displacement ``D`` [m] first reaches :data:`DISPLACEMENT_LIMIT_M`
+    on the path up to index ``last`` (the rising branch), interpolated; None if it does not."""
+    if D[: last + 1].max() < DISPLACEMENT_LIMIT_M:
+        return None
+    k = int(np.argmax(D[: last + 1] >= DISPLACEMENT_LIMIT_M))
+    return float(np.interp(DISPLACEMENT_LIMIT_M, D[k - 1:k + 1], T[k - 1:k + 1]))
+
+
 #: :attr:`StabilityResult.path_stop` of a path that lost stability before its peak.
 STOP_BIFURCATION = "bifurcation before the peak"
 
@@ -348,7 +362,7 @@ def _with_followed_branch(res: StabilityResult, criterion: str, element_length_m
     inp = res.inputs
     if inp.misalignment_m >= BRANCH_START_MISALIGNMENTS_M[-1]:
         return None
-    d0 = TRIGGER_MISALIGNMENT_M if inp.misalignment_m == 0.0 else inp.misalignment_m
+    d0 = _traced_misalignment(inp)
     if branch is None:
         branch = trough_by_continuation(inp, d0, element_length_m, half_length_m)
     if branch is None or branch[0] >= res.upper_critical_rise_K:
@@ -373,14 +387,11 @@ def _partial_path_with_branch(inp: TrackStabilityInput, exc: StabilityError, cri
     path = getattr(exc, "partial_path", None)
     if path is None or len(path.rise) < 3 or inp.misalignment_m >= BRANCH_START_MISALIGNMENTS_M[-1]:
         return None
-    d0 = TRIGGER_MISALIGNMENT_M if inp.misalignment_m == 0.0 else inp.misalignment_m
+    d0 = _traced_misalignment(inp)
     T, D = np.asarray(path.rise), np.asarray(path.disp)
     k = int(np.argmax(T))
     upper = float(min(T[k], MAX_RISE_K))
-    rise_lim = None
-    if D[: k + 1].max() >= DISPLACEMENT_LIMIT_M:
-        i = int(np.argmax(D[: k + 1] >= DISPLACEMENT_LIMIT_M))
-        rise_lim = float(np.interp(DISPLACEMENT_LIMIT_M, D[i - 1:i + 1], T[i - 1:i + 1]))
+    rise_lim = _rise_at_limit(D, T, k)
     branch = trough_by_continuation(inp, d0, element_length_m, half_length_m)
     if (branch is None or branch[0] >= upper) and rise_lim is not None:
         # rising past the displacement limit before it was lost (and no buckled branch below its
@@ -523,7 +534,7 @@ def _solve_curve(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERION
         # a trough where the path could not be followed further may be a bump on the descent, and
         # on curves the path can end on another, higher branch: the branch followed back from a
         # larger misalignment decides if the trough lies lower
-        d0 = TRIGGER_MISALIGNMENT_M if inp.misalignment_m == 0.0 else inp.misalignment_m
+        d0 = _traced_misalignment(inp)
         branch = trough_by_continuation(inp, d0, element_length_m, half_length_m)
         if branch is not None and branch[0] < res.lower_critical_rise_K - 0.01:
             followed = _with_followed_branch(res, criterion, element_length_m, half_length_m,
@@ -597,7 +608,7 @@ def _solve_traced(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERIO
         raise InputError(f"unknown criterion {criterion!r}; accepted: {', '.join(CRITERIA)}", field="criterion")
     notes = []
     perfect = inp.misalignment_m == 0.0
-    d0 = TRIGGER_MISALIGNMENT_M if perfect else inp.misalignment_m
+    d0 = _traced_misalignment(inp)
     L = half_length_m
     for attempt in range(2):
         M = _Model(inp, d0, element_length_m, L)
@@ -656,11 +667,7 @@ def _solve_traced(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERIO
                 notes.append(f"no peak up to a lateral displacement of {MAX_DISPLACEMENT_M * 1e3:.0f} mm; "
                              "the upper critical rise is the rise at that displacement")
     # rise at the displacement limit on the rising branch (before the peak)
-    rise_lim = None
-    stop_i = i_peak if i_peak is not None else len(T) - 1
-    if D[: stop_i + 1].max() >= DISPLACEMENT_LIMIT_M:
-        k = int(np.argmax(D[: stop_i + 1] >= DISPLACEMENT_LIMIT_M))
-        rise_lim = float(np.interp(DISPLACEMENT_LIMIT_M, D[k - 1:k + 1], T[k - 1:k + 1]))
+    rise_lim = _rise_at_limit(D, T, i_peak if i_peak is not None else len(T) - 1)
     # The allowable rise always comes from the traced curve (never from the bifurcation rise of a
     # perfectly straight track, which no real track reaches).
     upper_traced = upper
