@@ -709,36 +709,40 @@ def _local_trough(M: _Model, q: np.ndarray, T: float, u: float, rel: float = 0.1
     return qb, Tb, best
 
 
-def _branch_start(inp: TrackStabilityInput, target_m: float, element_m: float, half_m: float):
-    """A state on the buckled branch: the trough of the first misalignment above ``target_m``
-    (:data:`BRANCH_START_MISALIGNMENTS_M`, then 1.5, 3, 6... times ``target_m``) whose path snaps
-    through below the analysis limit; ``(d, q, T)`` or None."""
+def _start_candidates(target_m: float) -> list:
+    """Misalignments [m] through which the buckled branch is sought for ``target_m``, in order:
+    :data:`BRANCH_START_MISALIGNMENTS_M`, then 1.5, 3, 6... times ``target_m`` (below the first of
+    those), every one above ``target_m``. The order depends on ``target_m`` only, so the start
+    (and the result) does not depend on what was computed before."""
     small = [target_m * 1.5 * 2.0**k for k in range(8)]
-    for d in list(BRANCH_START_MISALIGNMENTS_M) + [d for d in small if d < BRANCH_START_MISALIGNMENTS_M[0]]:
-        if d <= target_m:
-            continue
-        M = _Model(inp, d, element_m, half_m)
-        try:
-            path = _trace(M)
-        except StabilityError:
-            continue
-        T = np.asarray(path.rise)
-        i_peak = next((i for i in range(1, len(T) - 1) if T[i] >= T[i - 1] and T[i + 1] < T[i]), None)
-        if i_peak is None:
-            continue
-        j = i_peak + int(np.argmin(T[i_peak:]))
-        if j >= len(T) - 1 or T[i_peak] - T[j] < SNAP_THRESHOLD_K:
-            continue
-        q, Tj = path.states[j]
-        return d, q, float(Tj)
-    return None
+    cands = list(BRANCH_START_MISALIGNMENTS_M) + [d for d in small if d < BRANCH_START_MISALIGNMENTS_M[0]]
+    return [d for d in cands if d > target_m]
+
+
+def _start_state(inp: TrackStabilityInput, d: float, element_m: float, half_m: float):
+    """The trough ``(q, T)`` of the path traced with misalignment ``d`` [m] if it snaps through below
+    the analysis limit (a state on the buckled branch), else None."""
+    try:
+        path = _trace(_Model(inp, d, element_m, half_m))
+    except StabilityError:
+        return None
+    T = np.asarray(path.rise)
+    i_peak = next((i for i in range(1, len(T) - 1) if T[i] >= T[i - 1] and T[i + 1] < T[i]), None)
+    if i_peak is None:
+        return None
+    j = i_peak + int(np.argmin(T[i_peak:]))
+    if j >= len(T) - 1 or T[i_peak] - T[j] < SNAP_THRESHOLD_K:
+        return None
+    q, Tj = path.states[j]
+    return (q, float(Tj)) if q[0] > 0 else None
 
 
 def trough_by_continuation(inp: TrackStabilityInput, misalignment_m: float, element_m: float = ELEMENT_LENGTH_M,
                            half_length_m: float = HALF_LENGTH_M):
     """Lower critical rise of a track whose own equilibrium path peaks beyond the analysis limit.
 
-    The buckled branch is reached through a larger misalignment (:func:`_branch_start`) and
+    The buckled branch is reached through a larger misalignment (:func:`_start_candidates`, the
+    first whose path snaps through: :func:`_start_state`) and
     followed back to ``misalignment_m`` in steps of at most :data:`BRANCH_LOG_STEP` in its
     logarithm (shorter where a step loses the branch), the trough found again at each step
     (:func:`_local_trough`). The trough moves
@@ -759,40 +763,40 @@ def trough_by_continuation(inp: TrackStabilityInput, misalignment_m: float, elem
     """
     import dataclasses
 
-    key = (dataclasses.replace(inp, misalignment_m=0.0), float(element_m), float(half_length_m))
-    known = _BRANCHES.get(key)
-    if known is None:  # the branch of this track has not been reached yet
-        start = _branch_start(inp, misalignment_m, element_m, half_length_m)
-        if start is None or start[1][0] <= 0:
-            return None
-        d_s, q, T = start
-        known = {"start": d_s, "ladder": [(q, T, float(q[0]))]}
-        if len(_BRANCHES) >= _BRANCHES_MAX:
-            _BRANCHES.pop(next(iter(_BRANCHES)))
-        _BRANCHES[key] = known
-    d_s, ladder = known["start"], known["ladder"]
-    if misalignment_m >= d_s:
-        return None
-    # the branch is followed along a fixed ladder of misalignments d_s exp(-k BRANCH_LOG_STEP)
-    # (kept, so that each track's branch is followed once, whatever the order of the calls) and
-    # from the rung just above the given misalignment to it
-    k = int(math.floor(math.log(d_s / misalignment_m) / BRANCH_LOG_STEP + 1e-9))
-    while len(ladder) <= k:
-        i = len(ladder)
-        if ladder[-1] is None:
-            return None
-        ladder.append(_advance(inp, ladder[-1], d_s * math.exp(-(i - 1) * BRANCH_LOG_STEP),
-                               d_s * math.exp(-i * BRANCH_LOG_STEP), element_m, half_length_m))
-    state = ladder[k]
-    d_k = d_s * math.exp(-k * BRANCH_LOG_STEP)
-    if state is not None and misalignment_m < d_k * (1 - 1e-12):
-        state = _advance(inp, state, d_k, misalignment_m, element_m, half_length_m)
-    if state is None:
-        return None
-    _, T, u = state
-    if not (0.0 < T < MAX_RISE_K):
-        return None
-    return float(T), float(u), float(d_s)
+    track = dataclasses.replace(inp, misalignment_m=0.0)
+    for d_s in _start_candidates(misalignment_m):
+        key = (track, round(d_s, 12), float(element_m), float(half_length_m))
+        ladder = _BRANCHES.get(key)
+        if ladder is None:  # this start has not been tried for this track yet
+            start = _start_state(inp, d_s, element_m, half_length_m)
+            ladder = False if start is None else [(start[0], start[1], float(start[0][0]))]
+            if len(_BRANCHES) >= _BRANCHES_MAX:
+                _BRANCHES.pop(next(iter(_BRANCHES)))
+            _BRANCHES[key] = ladder
+        if ladder is False:
+            continue
+        # the branch is followed along a fixed ladder of misalignments d_s exp(-k BRANCH_LOG_STEP)
+        # (kept, so that each branch is followed once, whatever the order of the calls) and from
+        # the rung just above the given misalignment to it
+        k = int(math.floor(math.log(d_s / misalignment_m) / BRANCH_LOG_STEP + 1e-9))
+        while len(ladder) <= k and ladder[-1] is not None:
+            i = len(ladder)
+            ladder.append(_advance(inp, ladder[-1], d_s * math.exp(-(i - 1) * BRANCH_LOG_STEP),
+                                   d_s * math.exp(-i * BRANCH_LOG_STEP), element_m, half_length_m))
+        state = ladder[k] if k < len(ladder) else None
+        d_k = d_s * math.exp(-k * BRANCH_LOG_STEP)
+        if state is not None and misalignment_m < d_k * (1 - 1e-12):
+            state = _advance(inp, state, d_k, misalignment_m, element_m, half_length_m)
+        if state is not None and 0.0 < state[1] < MAX_RISE_K:
+            return float(state[1]), float(state[2]), float(d_s)
+    return None
+
+
+#: The buckled branches followed so far in this process, by track (its misalignment set to 0),
+#: start misalignment, element and half-length: the troughs on the ladder of misalignments (False
+#: where that start does not snap through). At most :data:`_BRANCHES_MAX` entries are kept.
+_BRANCHES: dict = {}
+_BRANCHES_MAX = 512
 
 
 def _advance(inp: TrackStabilityInput, state: tuple, d_from: float, d_to: float, element_m: float,
@@ -814,11 +818,3 @@ def _advance(inp: TrackStabilityInput, state: tuple, d_from: float, d_to: float,
         (q, T, u), d = r, d_next
         step = min(BRANCH_LOG_STEP, step * 1.5)
     return q, T, u
-
-
-#: The buckled branches followed so far in this process, by track (its misalignment set to 0),
-#: element and half-length: the start misalignment and the troughs found, by misalignment. A
-#: track's other misalignments continue from the nearest larger one already followed (the
-#: stand-in's grid follows each branch once). At most :data:`_BRANCHES_MAX` tracks are kept.
-_BRANCHES: dict = {}
-_BRANCHES_MAX = 512
