@@ -140,6 +140,7 @@ calibration of the default criterion).
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 from functools import lru_cache
 from typing import Callable
@@ -314,9 +315,9 @@ def _critical_point(M: _Model, path: _Path, i: int, sign: int):
     return float(np.interp(sx, s, d)), float(Tx)
 
 
-#: Misalignment [m] with which the buckled branch is traced when the given one shows no peak
-#: below :data:`MAX_RISE_K` (its lower critical rise is a little lower than that of a smaller
-#: misalignment, so taking it is on the safe side).
+#: Misalignment [m] whose result stands in, as the last resort, when the given misalignment's path
+#: cannot be followed and its buckled branch cannot be followed back either (its critical rises are
+#: lower than those of a smaller misalignment, so taking it is on the safe side).
 RETRACE_MISALIGNMENT_M = 0.05
 
 
@@ -357,8 +358,6 @@ def _with_followed_branch(res: StabilityResult, criterion: str, element_length_m
     """``res`` with the lower critical rise of its own buckled branch, reached through a larger
     misalignment and followed back (:func:`trackplan.stability_fe.trough_by_continuation`); None
     when the branch cannot be followed or its trough is not below the upper critical rise."""
-    import dataclasses
-
     inp = res.inputs
     if inp.misalignment_m >= BRANCH_START_MISALIGNMENTS_M[-1]:
         return None
@@ -439,8 +438,6 @@ def solve_equilibrium_curve(inp: TrackStabilityInput, *, criterion: str = DEFAUL
     if (criterion != "practice-calibrated" or inp.lateral_stiffness_N_per_m2 is not None
             or inp.misalignment_m >= DEFAULT_MISALIGNMENT_M or not np.isfinite(res.allowable_rise_K)):
         return res
-    import dataclasses
-
     ref_inp = dataclasses.replace(inp, misalignment_m=DEFAULT_MISALIGNMENT_M)
     try:
         if element_length_m == ELEMENT_LENGTH_M and half_length_m == HALF_LENGTH_M:
@@ -484,8 +481,6 @@ def _solve_curve(inp: TrackStabilityInput, *, criterion: str = DEFAULT_CRITERION
 
     Parameters are those of :func:`_solve_traced`.
     """
-    import dataclasses
-
     kw = dict(criterion=criterion, element_length_m=element_length_m, half_length_m=half_length_m)
     try:
         res = _solve_traced(inp, progress=progress, **kw)
@@ -774,8 +769,6 @@ def analyse_stability(inp: TrackStabilityInput, criterion: str = DEFAULT_CRITERI
 
 def with_unloaded(result: StabilityResult) -> StabilityResult:
     """``result`` with the critical rises of the same track without vehicles filled in."""
-    import dataclasses
-
     if result.inputs.loading is None:
         return dataclasses.replace(result, unloaded_upper_critical_rise_K=result.upper_critical_rise_K,
                                    unloaded_lower_critical_rise_K=result.lower_critical_rise_K)
